@@ -1,0 +1,9 @@
+"""The numerical core: arrays in, plain result objects out.
+
+Imports numpy and scipy only: no pandas, no I/O, no web types.
+"""
+
+from app.core.diagnosis import Diagnosis, diagnose
+from app.core.factor import Factorization, factorize
+
+__all__ = ["Diagnosis", "Factorization", "diagnose", "factorize"]

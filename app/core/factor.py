@@ -1,0 +1,180 @@
+"""One factorization of the design: the triangular factor of [1, X, y] and column scales.
+
+Everything in the core derives from this object; it is built once per design.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from functools import cached_property
+
+import numpy as np
+
+from app.core.reduce import block_rows, reduce_blocks
+
+EPS = float(np.finfo(np.float64).eps)
+
+
+def _blocks(X: np.ndarray, y: np.ndarray, sw: np.ndarray):
+    """Yield row blocks of the weighted matrix [sqrt(w), sqrt(w)·X, sqrt(w)·y]."""
+    n, p = X.shape
+    step = block_rows(p + 2)
+    for start in range(0, n, step):
+        sl = slice(start, start + step)
+        w = sw[sl, None]
+        yield np.hstack([w, w * X[sl], w * y[sl, None]])
+
+
+@dataclass
+class Factorization:
+    """The triangular factor T of the weighted matrix M = [1, X, y] with its scales.
+
+    T: (p+2, p+2) upper triangular, non-negative diagonal, TᵀT = MᵀM (raw units).
+       Column 0 is the constant, columns 1..p are X, column p+1 is y (zeros if no y).
+    columns: the p column names of X.
+    n: number of rows with positive weight.
+    sum_weights: Σw (equals n without weights).
+    X, y, weights: the data, kept (when given) for extended-precision refinement of
+       the fit, exact relation residuals and rank correlations; None after streaming.
+    """
+
+    T: np.ndarray
+    columns: list[str]
+    n: int
+    sum_weights: float
+    has_response: bool
+    X: np.ndarray | None = None
+    y: np.ndarray | None = None
+    weights: np.ndarray | None = None
+    notes: list[str] = field(default_factory=list)
+
+    @property
+    def p(self) -> int:
+        return len(self.columns)
+
+    @cached_property
+    def norms(self) -> np.ndarray:
+        """(p+2,) column lengths of M (weighted); zero columns get length 1 to stay finite."""
+        nrm = np.linalg.norm(self.T, axis=0)
+        return np.where(nrm > 0, nrm, 1.0)
+
+    @cached_property
+    def scales(self) -> np.ndarray:
+        """(p,) lengths of the X columns: the column equilibration Xe = X / scales."""
+        return self.norms[1 : self.p + 1]
+
+    @cached_property
+    def zero_columns(self) -> list[int]:
+        """Indices of X columns that are identically zero."""
+        nrm = np.linalg.norm(self.T[:, 1 : self.p + 1], axis=0)
+        return [j for j in range(self.p) if nrm[j] == 0.0]
+
+    @cached_property
+    def T_eq(self) -> np.ndarray:
+        """Factor of the column-equilibrated [u, Xe, y]: every X column and u of unit length.
+
+        Column scaling commutes with QR (Q·R·S = Q·(R·S)), and Householder QR is
+        columnwise backward stable (Higham, Accuracy and Stability of Numerical
+        Algorithms, 2nd ed., Thm 19.4), so scaling after the reduction loses nothing.
+        y keeps its raw units.
+        """
+        s = self.norms.copy()
+        s[-1] = 1.0
+        return self.T / s
+
+    @cached_property
+    def R_xy(self) -> np.ndarray:
+        """(p+1, p+1) triangular factor of [Xe, y] (constant column removed)."""
+        R = np.linalg.qr(self.T_eq[:, 1:], mode="r")
+        k = self.p + 1
+        out = np.zeros((k, k))
+        out[: R.shape[0]] = R[:k]
+        return out
+
+    @cached_property
+    def R_xy_raw(self) -> np.ndarray:
+        """(p+1, p+1) triangular factor of the raw [X, y]."""
+        s = np.append(self.scales, 1.0)
+        return self.R_xy * s
+
+    @property
+    def R_x(self) -> np.ndarray:
+        """(p, p) triangular factor of Xe: same singular values and Gram matrix as Xe."""
+        return self.R_xy[: self.p, : self.p]
+
+    @cached_property
+    def means(self) -> np.ndarray:
+        """(p+1,) weighted column means of X and y (raw units).
+
+        Row 0 of T holds uᵀ·[X y] with u = sqrt(w)/||sqrt(w)||, u's own entry ||sqrt(w)||.
+        """
+        return self.T[0, 1:] / self.T[0, 0] if self.T[0, 0] > 0 else np.zeros(self.p + 1)
+
+    @cached_property
+    def centered(self) -> np.ndarray:
+        """(p+1, p+1) triangular factor of the centered raw [X, y].
+
+        With the constant as the first column of M, the trailing block T[1:, 1:] is the
+        factor of M's other columns projected off the constant (Golub & Van Loan,
+        Matrix Computations, 4th ed., §5.2: QR of a partitioned matrix).
+        """
+        return self.T[1:, 1:]
+
+    @cached_property
+    def constant_in_span(self) -> bool:
+        """True when the constant vector lies in the column space of X (explicitly or not).
+
+        Measured as the length of u (unit length) left after projecting it off X; at most
+        sqrt(p+1)·max(n, p)·eps means it is in the span (same rule as the rank tolerance).
+        """
+        A = np.hstack([self.T_eq[:, 1 : self.p + 1], self.T_eq[:, :1]])
+        R = np.linalg.qr(A, mode="r")
+        left = abs(R[self.p, self.p]) if R.shape[0] > self.p else 0.0
+        return bool(left <= np.sqrt(self.p + 1) * max(self.n, self.p) * EPS * 10)
+
+
+def factorize(
+    X: np.ndarray,
+    columns: list[str],
+    y: np.ndarray | None = None,
+    weights: np.ndarray | None = None,
+    keep_data: bool = True,
+) -> Factorization:
+    """Reduce [1, X, y] (rows weighted by sqrt(w)) to its triangular factor in one pass.
+
+    X: (n, p) float64, finite. y: (n,) or None. weights: (n,) non-negative or None.
+    The constant column is always carried in front so that centered quantities
+    (correlations, VIF, centered condition number, ridge) come from the same factor.
+    """
+    X = np.asarray(X, dtype=np.float64)
+    if X.ndim != 2:
+        raise ValueError(f"X must be 2-D, got shape {X.shape}")
+    n, p = X.shape
+    if len(columns) != p:
+        raise ValueError(f"{len(columns)} names for {p} columns")
+    has_y = y is not None
+    yv = np.zeros(n) if y is None else np.asarray(y, dtype=np.float64).reshape(-1)
+    if yv.shape[0] != n:
+        raise ValueError(f"y has {yv.shape[0]} rows, X has {n}")
+    if weights is None:
+        sw = np.ones(n)
+        n_pos, sum_w = n, float(n)
+    else:
+        w = np.asarray(weights, dtype=np.float64).reshape(-1)
+        if w.shape[0] != n or np.any(~np.isfinite(w)) or np.any(w < 0):
+            raise ValueError("weights must be finite, non-negative, one per row")
+        sw = np.sqrt(w)
+        n_pos, sum_w = int(np.count_nonzero(w)), float(w.sum())
+    if not (np.all(np.isfinite(X)) and np.all(np.isfinite(yv))):
+        raise ValueError("X and y must be finite")
+    T = reduce_blocks(_blocks(X, yv, sw), p + 2)
+    return Factorization(
+        T=T,
+        columns=list(columns),
+        n=n_pos,
+        sum_weights=sum_w,
+        has_response=has_y,
+        X=X if keep_data else None,
+        y=yv if (keep_data and has_y) else None,
+        weights=None if weights is None else np.asarray(weights, dtype=np.float64),
+    )

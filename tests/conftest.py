@@ -1,0 +1,16 @@
+"""Shared test settings: hypothesis profiles (CI runs a fixed, modest number of examples)."""
+
+from __future__ import annotations
+
+import os
+
+from hypothesis import HealthCheck, settings
+
+settings.register_profile(
+    "ci", max_examples=60, deadline=None, derandomize=True,
+    suppress_health_check=[HealthCheck.too_slow],
+)
+settings.register_profile(
+    "dev", max_examples=40, deadline=None, suppress_health_check=[HealthCheck.too_slow]
+)
+settings.load_profile("ci" if os.environ.get("CI") else os.environ.get("HYPOTHESIS_PROFILE", "dev"))
