@@ -210,7 +210,9 @@ def alias_structure(relations: list[Relation]) -> list[dict]:
     return out
 
 
-def is_estimable(a: dict[str, float], null_space: list[dict[str, float]], tol: float = 1e-9) -> bool:
+def is_estimable(
+    a: dict[str, float], null_space: list[dict[str, float]], tol: float = 1e-9
+) -> bool:
     """Σ a_j·β_j is estimable iff a is orthogonal to every null vector of X
     (Searle 1971 §5.4). tol: relative to |a|·|v|."""
     for v in null_space:
