@@ -74,14 +74,26 @@ def diagnose(
     ridge_grid: np.ndarray | None = None,
     index_threshold: float = cnd.INDEX_THRESHOLD,
     proportion_threshold: float = cnd.PROPORTION_THRESHOLD,
+    rank_correlation: bool = True,
 ) -> Diagnosis:
     """Factor X (n, p) [and y (n,)] once and derive every diagnostic. See diagnose_factor."""
     F = factorize(X, columns, y, weights)
     return diagnose_factor(
         F, response=response, groups=groups, keep=keep, tol=tol, ridge_penalty=ridge_penalty,
         ridge_grid=ridge_grid, index_threshold=index_threshold,
-        proportion_threshold=proportion_threshold,
+        proportion_threshold=proportion_threshold, rank_correlation=rank_correlation,
     )
+
+
+#: Above this many rows, Spearman correlations are computed on evenly spaced rows.
+SPEARMAN_ROWS = 50_000
+
+
+def spearman_rows(n: int, total: int) -> np.ndarray | None:
+    """Evenly spaced row indices when the table is larger than SPEARMAN_ROWS, else None."""
+    if total <= SPEARMAN_ROWS:
+        return None
+    return np.linspace(0, total - 1, SPEARMAN_ROWS).astype(int)
 
 
 def priority_order(columns: list[str], keep: list[str] | None) -> list[int]:
@@ -102,6 +114,7 @@ def diagnose_factor(
     ridge_grid: np.ndarray | None = None,
     index_threshold: float = cnd.INDEX_THRESHOLD,
     proportion_threshold: float = cnd.PROPORTION_THRESHOLD,
+    rank_correlation: bool = True,
 ) -> Diagnosis:
     """Every diagnostic from one Factorization.
 
@@ -211,7 +224,13 @@ def diagnose_factor(
         }
 
     pear = pearson_from_factor(Zc)
-    spear = spearman(F.X[:, nonconst]) if (F.X is not None and nonconst) else None
+    spear = None
+    if rank_correlation and F.X is not None and nonconst:
+        rows = spearman_rows(F.n, F.X.shape[0])
+        spear = spearman(F.X[rows][:, nonconst] if rows is not None else F.X[:, nonconst])
+        if rows is not None:
+            notes.append(f"Spearman correlations use {len(rows):,} evenly spaced rows of "
+                         f"{F.X.shape[0]:,} (ranking every row costs more than the rest).")
     corr = {
         "columns": [names[j] for j in nonconst],
         "pearson": pear.tolist(),
@@ -221,8 +240,7 @@ def diagnose_factor(
 
     fit = None
     if F.has_response:
-        cond_eq = cond["equilibrated"] or float("inf")
-        fit = fit_least_squares(F, basis, rels, rank_qr, cond_eq).to_dict()
+        fit = fit_least_squares(F, basis, rels, rank_qr).to_dict()
 
     ridge = None
     if F.has_response and (ridge_penalty is not None or ridge_grid is not None):

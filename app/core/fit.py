@@ -114,9 +114,7 @@ def min_norm_solution(F: Factorization, rank: int) -> np.ndarray:
     return Vt[:r].T @ (h[:r] / d[:r])
 
 
-def fit_least_squares(
-    F: Factorization, basis: Basis, relations: list[Relation], rank: int, cond_eq: float
-) -> Fit:
+def fit_least_squares(F: Factorization, basis: Basis, relations: list[Relation], rank: int) -> Fit:
     """Coefficients, standard errors, t and p values, R², F, from the basis factor.
 
     basis: chosen on the unit-length factor with y's coordinates carried along (qty).
@@ -133,7 +131,9 @@ def fit_least_squares(
     rss = float(R[p, p] ** 2 + np.sum(basis.qty[k:] ** 2))
     steps = 0
     if k and F.X is not None and F.y is not None:
-        if F.n * k <= REFINE_CELLS or cond_eq > REFINE_COND:
+        d = np.linalg.svd(basis.R11, compute_uv=False)
+        cond_basis = float(d[0] / d[-1]) if d[-1] > 0 else np.inf
+        if F.n * k <= REFINE_CELLS or cond_basis > REFINE_COND:
             b, rss, steps = _refine(F, B, basis.R11, b)
     df_res = F.n - k
     centered = F.constant_in_span
