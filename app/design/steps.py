@@ -108,7 +108,9 @@ SPECS: dict[str, StepSpec] = {
             "product",
             "Add the product of two columns (they stay).",
             (
-                Field("columns", "columns", True, "exactly two columns (the same one twice squares)"),
+                Field(
+                    "columns", "columns", True, "exactly two columns (the same one twice squares)"
+                ),
                 Field("name", "text", True, "name of the new column"),
             ),
         ),
@@ -163,7 +165,7 @@ def _bad(what: str, where: str, todo: str = "") -> InputError:
 
 
 def _check_field(spec: StepSpec, f: Field, value: Any, where: str) -> None:
-    label = f"field {quoted(f.name)} of a {spec.name} step"
+    label = f"field {quoted(f.name)} of the {spec.name} step"
     if f.type in ("column", "text"):
         if not isinstance(value, str) or not value.strip():
             raise _bad(f"{label} must be non-empty text, not {value!r}", where, f.help)
@@ -254,14 +256,14 @@ def validate_step(step: Any, position: int | None = None) -> dict[str, Any]:
     for key in step:
         if key != "step" and key not in allowed:
             raise _bad(
-                f"a {name} step has no field {quoted(key)}",
+                f"the {name} step has no field {quoted(key)}",
                 where,
                 f"Its fields: {', '.join(allowed)}. " + suggestion(str(key), allowed),
             )
     for f in spec.fields:
         if f.name not in step:
             if f.required:
-                raise _bad(f"a {name} step needs the field {quoted(f.name)}", where, f.help)
+                raise _bad(f"the {name} step needs the field {quoted(f.name)}", where, f.help)
             continue
         _check_field(spec, f, step[f.name], where)
     _check_together(step, where)
@@ -346,9 +348,13 @@ def describe_step(step: dict[str, Any]) -> str:
         new = quoted(step["name"])
         method = step["method"]
         if method == "difference":
-            return f"Replace {members[0]} and {members[1]} by {members[0]} minus {members[1]}, {new}."
+            return (
+                f"Replace {members[0]} and {members[1]} by {members[0]} minus {members[1]}, {new}."
+            )
         if method == "ratio":
-            return f"Replace {members[0]} and {members[1]} by {members[0]} over {members[1]}, {new}."
+            return (
+                f"Replace {members[0]} and {members[1]} by {members[0]} over {members[1]}, {new}."
+            )
         group = ", ".join(members[:-1]) + " and " + members[-1]
         if method == "first_component":
             return f"Replace {group} by their first principal component, {new}."

@@ -1,0 +1,170 @@
+"""From a finished workbench to X and y: columns used, rows kept, indicator coding.
+
+Builds arrays only; diagnosing them (rank, dependencies) is the core's job.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from app.design.apply_roles import levels_of
+from app.design.bench import PREDICTOR, Bench, Col
+from app.design.design import INTERCEPT
+from app.design.names import quoted
+from app.design.steps import ALL_LEVELS
+from app.tables.errors import InputError
+
+
+@dataclass
+class Plan:
+    """What goes into the design, decided before any row is deleted.
+
+    predictors: working columns that become columns of X, in order.
+    left_out: columns left out by the drop_column missing policy, with their missing counts.
+    dates: date columns left out because dates are not numbers.
+    sources: table columns whose missing values delete rows, in table order.
+    """
+
+    predictors: list[Col]
+    response: Col | None
+    left_out: list[tuple[Col, int]]
+    dates: list[Col]
+    sources: list[str]
+
+
+def _missing_rows(col: Col, missing: dict[str, np.ndarray]) -> np.ndarray:
+    return np.logical_or.reduce([missing[s] for s in sorted(col.sources)])
+
+
+def make_plan(bench: Bench, missing: dict[str, np.ndarray], table_order: list[str]) -> Plan:
+    """Decide the design's columns. `missing` holds each table column's full missing mask,
+    so both passes (all rows, kept rows) take the same decisions."""
+    predictors: list[Col] = []
+    left_out: list[tuple[Col, int]] = []
+    dates: list[Col] = []
+    for col in bench.cols:
+        if col.role != PREDICTOR:
+            continue
+        if col.kind == "date":
+            dates.append(col)
+            continue
+        if col.on_missing == "drop_column":
+            count = int(_missing_rows(col, missing).sum())
+            if count:
+                left_out.append((col, count))
+                continue
+        predictors.append(col)
+    response = bench.response()
+    used: set[str] = set()
+    for col in predictors + ([response] if response is not None else []):
+        used |= col.sources
+    return Plan(predictors, response, left_out, dates, [s for s in table_order if s in used])
+
+
+def keep_rows(
+    plan: Plan, missing: dict[str, np.ndarray], n: int
+) -> tuple[np.ndarray, dict[str, int]]:
+    """Listwise deletion over the used table columns.
+
+    A row missing several columns counts once, under the first of them in table order,
+    so the counts add up to the rows deleted.
+    """
+    kept = np.ones(n, dtype=bool)
+    dropped_by: dict[str, int] = {}
+    for s in plan.sources:
+        hit = kept & missing[s]
+        if hit.any():
+            dropped_by[s] = int(hit.sum())
+            kept &= ~missing[s]
+    return kept, dropped_by
+
+
+def _indicators(col: Col, notes: list[str]) -> list[tuple[str, np.ndarray]]:
+    levels = levels_of(col)
+    if not levels:
+        notes.append(f"{quoted(col.name)} has no values on the rows used; it adds no column.")
+        return []
+    reference = col.reference
+    if reference is None:
+        reference = levels[0]
+        how = f"against its first level {quoted(reference)}"
+    elif reference == ALL_LEVELS:
+        how = "keeping every level"
+    elif reference in levels:
+        how = f"against level {quoted(reference)}"
+    else:
+        raise InputError(f"{quoted(col.name)} has no level {quoted(reference)} on the rows used")
+    kept = [lv for lv in levels if lv != reference]
+    if not kept:
+        notes.append(f"{quoted(col.name)} has a single level on the rows used; it adds no column.")
+        return []
+    notes.append(f"Coded {quoted(col.name)} with {len(kept)} indicator column(s) {how}.")
+    return [(f"{col.name}[{lv}]", (col.values == lv).astype(float)) for lv in kept]
+
+
+@dataclass
+class Matrix:
+    """The assembled numbers: X with its column names and groups, and y."""
+
+    X: np.ndarray
+    columns: list[str]
+    y: np.ndarray | None
+    groups: dict[str, list[str]]
+    notes: list[str]
+
+
+def _raise_problem(col: Col) -> None:
+    if col.problem:
+        raise InputError(col.problem)
+
+
+def assemble(bench: Bench, plan: Plan) -> Matrix:
+    """Build X (intercept first, then working-column order, indicators in place) and y."""
+    notes: list[str] = []
+    names: list[str] = []
+    arrays: list[np.ndarray] = []
+    groups: dict[str, list[str]] = {}
+    if bench.intercept:
+        names.append(INTERCEPT)
+        arrays.append(np.ones(bench.n))
+    for col in plan.predictors:
+        _raise_problem(col)
+        if col.kind == "categorical":
+            pairs = _indicators(col, notes)
+            if pairs:
+                groups[col.name] = [name for name, _ in pairs]
+        else:
+            pairs = [(col.name, col.values.astype(float))]
+        for name, values in pairs:
+            if name in names:
+                raise InputError(
+                    f"two design columns would both be named {quoted(name)}",
+                    "",
+                    "Rename one of them (steps that make columns take a name field)",
+                )
+            names.append(name)
+            arrays.append(values)
+    for col, count in plan.left_out:
+        notes.append(
+            f"Left out {quoted(col.name)}: it is missing in {count} row(s) and its missing "
+            "policy is drop_column."
+        )
+    for col in plan.dates:
+        notes.append(
+            f"Left out the date column {quoted(col.name)}; a kind step can make it numeric "
+            "(days since 1970-01-01)."
+        )
+    if not names:
+        raise InputError(
+            "the design has no columns",
+            "",
+            "Restore a column or include the intercept",
+        )
+    y = None
+    if plan.response is not None:
+        _raise_problem(plan.response)
+        y = plan.response.values.astype(float)
+    X = np.column_stack(arrays).astype(np.float64, copy=False)
+    return Matrix(np.ascontiguousarray(X), names, y, groups, notes)
