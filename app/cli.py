@@ -1,0 +1,392 @@
+"""The `rankscope` command: `check FILE` (terminal report or JSON, exit codes) and `serve`.
+
+A thin shell: reads the file, builds the design, calls the core; no linear algebra here.
+"""
+
+from __future__ import annotations
+
+import argparse
+import io
+import json
+import math
+import operator
+import re
+import sys
+from collections.abc import Callable
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Any, NoReturn
+
+from app.tables.errors import InputError
+
+EXIT_OK = 0
+EXIT_CROSSED = 1
+EXIT_BAD_INPUT = 2
+
+CHECK_HELP = """\
+--fail-if rules (repeatable; exit code 1 when any is crossed, each crossing named on stderr):
+  vif>N        the largest VIF exceeds N (a column in an exact dependency has VIF ∞)
+  index>N      the largest condition index exceeds N (an exact dependency counts as ∞)
+  cond>N       the condition number of the unit-length columns exceeds N (∞ when deficient)
+  deficient    the design is rank deficient (some column is an exact combination of others)
+  '>=' may stand for '>'. Quote rules in the shell: --fail-if 'vif>10'.
+exit codes: 0 every rule holds, 1 a rule is crossed, 2 bad input (one line on stderr).
+"""
+
+
+class Parser(argparse.ArgumentParser):
+    """argparse with one-line errors: usage mistakes are bad input like any other."""
+
+    def error(self, message: str) -> NoReturn:
+        raise InputError(message, "", f"See {self.prog} --help")
+
+
+# ---------------------------------------------------------------- --fail-if rules
+
+
+@dataclass(frozen=True)
+class Rule:
+    """One --fail-if rule: a metric compared with a limit (None for 'deficient')."""
+
+    text: str
+    metric: str
+    limit: float | None
+    inclusive: bool
+
+    def crossed(self, value: float) -> bool:
+        if self.limit is None:
+            return bool(value)
+        return (operator.ge if self.inclusive else operator.gt)(value, self.limit)
+
+
+def _largest_vif(d: dict) -> tuple[float, str]:
+    vif = d["vif"]
+    if not vif:
+        return 0.0, "no VIF (fewer than two predictors)"
+    vals = {c: (math.inf if v is None else v) for c, v in vif.items()}
+    top = max(vals.values())
+    cols = [c for c, v in vals.items() if v == top]
+    return top, f"largest VIF {_show(top)} ({', '.join(cols[:4])}{', …' if len(cols) > 4 else ''})"
+
+
+def _largest_index(d: dict) -> tuple[float, str]:
+    if any(d["index_exact"]):
+        return math.inf, "an exact dependency (condition index ∞)"
+    vals = [math.inf if v is None else v for v in d["condition_indices"]]
+    top = max(vals, default=0.0)
+    return top, f"largest condition index {_show(top)}"
+
+
+def _cond(d: dict) -> tuple[float, str]:
+    v = d["condition_number"]["equilibrated"]
+    v = math.inf if v is None else v
+    return v, f"condition number of the unit-length columns {_show(v)}"
+
+
+def _deficient(d: dict) -> tuple[float, str]:
+    p = len(d["columns"])
+    return float(not d["full_rank"]), f"rank {d['rank']} of {p} columns"
+
+
+METRICS: dict[str, Callable[[dict], tuple[float, str]]] = {
+    "vif": _largest_vif,
+    "index": _largest_index,
+    "cond": _cond,
+    "deficient": _deficient,
+}
+
+
+def _show(x: float) -> str:
+    return "∞" if math.isinf(x) else f"{x:.4g}"
+
+
+def parse_rule(text: str) -> Rule:
+    """'vif>10', 'index>=30', 'cond>1e6' or 'deficient'."""
+    t = text.strip().lower().replace(" ", "")
+    if t == "deficient":
+        return Rule(text, "deficient", None, False)
+    sign = ">=" if ">=" in t else ">"
+    name, _, limit = t.partition(sign)
+    inclusive = sign == ">="
+    if name not in METRICS or name == "deficient" or not limit:
+        raise InputError(
+            f"cannot read the rule {text!r}", "--fail-if",
+            "Write vif>N, index>N, cond>N or deficient (for example --fail-if 'vif>10')")
+    try:
+        value = float(limit)
+    except ValueError:
+        value = math.nan
+    if not math.isfinite(value):
+        raise InputError(f"the limit in {text!r} is not a finite number", "--fail-if",
+                         "Write a number after the sign, for example vif>10")
+    return Rule(text, name, value, inclusive)
+
+
+def evaluate(rules: list[Rule], d: dict) -> list[dict]:
+    """Each rule with its measured value (null when infinite) and whether it is crossed."""
+    out = []
+    for r in rules:
+        value, detail = METRICS[r.metric](d)
+        out.append({
+            "rule": r.text,
+            "metric": r.metric,
+            "limit": r.limit,
+            "value": value if math.isfinite(value) else None,
+            "crossed": r.crossed(value),
+            "detail": detail,
+        })
+    return out
+
+
+# ---------------------------------------------------------------- check
+
+
+@dataclass
+class Steps:
+    """Recipe steps with, for each, what asked for it (an option, or the recipe file)."""
+
+    steps: list[dict[str, Any]]
+    origins: list[str]
+
+    def add(self, step: dict[str, Any], origin: str) -> None:
+        self.steps.append(step)
+        self.origins.append(origin)
+
+    def relabel(self, e: InputError) -> InputError:
+        """Say which option or recipe-file step a 'recipe step N' error came from."""
+        m = STEP_WHERE.match(e.where)
+        if not m or not 1 <= int(m.group(1)) <= len(self.origins):
+            return e
+        rest = e.where[m.end():]
+        return InputError(e.what, self.origins[int(m.group(1)) - 1] + rest, e.todo)
+
+
+#: How the recipe code names a step in InputError.where ("recipe step 3 (drop), ...").
+STEP_WHERE = re.compile(r"recipe step (\d+)(?: \([a-z_]+\))?")
+
+
+def recipe_steps(args: argparse.Namespace, kinds: dict[str, str]) -> Steps:
+    """The recipe file's steps, then the steps the options ask for, in a fixed order."""
+    out = Steps([], [])
+    if args.recipe:
+        from app.design.recipe import Recipe
+
+        try:
+            text = Path(args.recipe).read_text(encoding="utf-8")
+        except UnicodeDecodeError as e:
+            raise InputError("the recipe is not UTF-8 text", args.recipe,
+                             "Save it as UTF-8 JSON") from e
+        try:
+            steps = Recipe.from_json(text).steps
+        except InputError as e:
+            where = f"{args.recipe}, {e.where}" if e.where else args.recipe
+            raise InputError(e.what, where, e.todo) from e
+        for i, step in enumerate(steps, start=1):
+            out.add(step, f"{args.recipe}, step {i} ({step['step']})")
+    if args.response:
+        out.add({"step": "response", "column": args.response}, f"--response {args.response}")
+    if args.no_intercept:
+        out.add({"step": "intercept", "include": False}, "--no-intercept")
+    recipe_kinds = {s["column"] for s in out.steps if s["step"] == "kind"}
+    coded = list(dict.fromkeys(args.categorical))
+    if args.all_levels:
+        # Every categorical column gets all its levels, not only the ones named here.
+        coded += [c for c, k in kinds.items()
+                  if k == "categorical" and c not in coded and c not in recipe_kinds]
+    for col in coded:
+        origin = f"--categorical {col}" if col in args.categorical else "--all-levels"
+        if kinds.get(col) != "categorical" and col in args.categorical:
+            out.add({"step": "kind", "column": col, "to": "categorical"}, origin)
+        step: dict[str, Any] = {"step": "indicators", "column": col}
+        if args.all_levels:
+            step["reference"] = "all"
+        out.add(step, origin)
+    for c in dict.fromkeys(args.drop):
+        out.add({"step": "drop", "column": c}, f"--drop {c}")
+    return out
+
+
+def check_names(args: argparse.Namespace, columns: list[str]) -> None:
+    """Name the option when it names a column the file lacks (without a recipe, whose
+    steps may make new columns, the file's columns are all there is)."""
+    from app.design.names import quoted, suggestion
+
+    named = [("--response", args.response)] if args.response else []
+    named += [("--categorical", c) for c in args.categorical]
+    named += [("--drop", c) for c in args.drop]
+    for option, name in named:
+        if name not in columns:
+            raise InputError(f"the file has no column named {quoted(name)}", option,
+                             suggestion(name, columns))
+
+
+def read(args: argparse.Namespace):
+    """The table, with reading failures turned into InputError."""
+    from app.tables.read import read_table
+
+    path = args.file
+    try:
+        return read_table(path, sheet=args.sheet)
+    except InputError:
+        raise
+    except FileNotFoundError as e:
+        raise InputError("the file does not exist", path, "Check the path") from e
+    except IsADirectoryError as e:
+        raise InputError("this is a folder, not a file", path, "Give a file") from e
+    except OSError as e:
+        raise InputError(f"the file cannot be read ({e.strerror or e})", path,
+                         "Check the path and its permissions") from e
+    except ValueError as e:  # includes UnicodeDecodeError
+        raise InputError(f"the file could not be read as a table ({e})", path,
+                         "Check that it is a CSV, TSV, Excel or Parquet file") from e
+
+
+def json_ready(obj: Any) -> Any:
+    """Plain JSON types; a non-finite float becomes null (the contract's 'infinite or
+    undefined'), numpy scalars become Python numbers."""
+    if isinstance(obj, dict):
+        return {str(k): json_ready(v) for k, v in obj.items()}
+    if isinstance(obj, list | tuple):
+        return [json_ready(v) for v in obj]
+    if isinstance(obj, bool) or obj is None or isinstance(obj, str):
+        return obj
+    if isinstance(obj, int):
+        return obj
+    if hasattr(obj, "item"):  # numpy scalar
+        return json_ready(obj.item())
+    if isinstance(obj, float):
+        return obj if math.isfinite(obj) else None
+    return obj
+
+
+def run_check(args: argparse.Namespace) -> int:
+    rules = [parse_rule(t) for t in args.fail_if]
+    if args.tol is not None and not (math.isfinite(args.tol) and args.tol > 0):
+        raise InputError(f"the tolerance must be a positive number, not {args.tol}", "--tol")
+    table = read(args)
+    if not args.recipe:
+        check_names(args, table.columns)
+    from app.core.diagnosis import diagnose
+    from app.design.recipe import Recipe, build_design
+    from app.report.cautions import choose_cautions
+
+    steps = recipe_steps(args, dict(table.kinds))
+    try:
+        design = build_design(table, Recipe(steps.steps))
+    except InputError as e:
+        raise steps.relabel(e) from e
+    for name in args.keep:
+        if name not in design.columns:
+            from app.design.names import quoted, suggestion
+
+            raise InputError(f"the design has no column named {quoted(name)}", "--keep",
+                             suggestion(name, design.columns))
+    diagnosis = diagnose(
+        design.X, design.columns, design.y, response=design.response, groups=design.groups,
+        keep=list(args.keep) or None, tol=args.tol,
+    ).to_dict()
+    checks = evaluate(rules, diagnosis)
+    if args.json:
+        doc = dict(diagnosis)
+        doc["source"] = table.source
+        doc["design"] = {
+            "rows_total": design.rows_total,
+            "rows_used": design.rows_used,
+            "rows_dropped": design.rows_total - design.rows_used,
+            "dropped_by": dict(design.dropped_by),
+            "response": design.response,
+            "intercept": design.intercept,
+            "groups": {g: list(c) for g, c in design.groups.items()},
+            "notes": list(design.notes) + list(table.notes),
+        }
+        doc["cautions"] = [c.to_dict() for c in choose_cautions(diagnosis)]
+        doc["checks"] = checks
+        # ASCII-only JSON (\u escapes) survives any terminal encoding unchanged.
+        sys.stdout.write(json.dumps(json_ready(doc), allow_nan=False, indent=2) + "\n")
+    else:
+        from app.report.text import render_text
+
+        sys.stdout.write(render_text(diagnosis, design, source=table.source, notes=table.notes))
+    crossed = [c for c in checks if c["crossed"]]
+    for c in crossed:
+        print(f"rankscope: --fail-if {c['rule']} crossed: {c['detail']}", file=sys.stderr)
+    return EXIT_CROSSED if crossed else EXIT_OK
+
+
+def run_serve(args: argparse.Namespace) -> int:
+    if args.file is not None and not Path(args.file).is_file():
+        raise InputError("the file does not exist", args.file, "Check the path")
+    from app.web.server import run  # the web stack loads only when serving
+
+    run(args.file, host=args.host, port=args.port, open_browser=not args.no_browser)
+    return EXIT_OK
+
+
+def build_parser() -> Parser:
+    parser = Parser(prog="rankscope", description=(
+        "Name the exact linear dependencies among the columns of a linear model's design, "
+        "measure near-collinearity and fit stably."))
+    sub = parser.add_subparsers(dest="command", required=True, parser_class=Parser)
+
+    check = sub.add_parser(
+        "check", help="diagnose a table and print a report (or JSON)",
+        description="Diagnose the design built from FILE and print a report.",
+        epilog=CHECK_HELP, formatter_class=argparse.RawDescriptionHelpFormatter)
+    check.add_argument("file", metavar="FILE", help="CSV, TSV, Excel or Parquet file")
+    check.add_argument("--response", metavar="COL", help="the response column (y)")
+    check.add_argument("--drop", metavar="COL", action="append", default=[],
+                       help="leave a column out of the predictors (repeatable)")
+    check.add_argument("--categorical", metavar="COL", action="append", default=[],
+                       help="code a column as 0/1 indicators, one level left out (repeatable)")
+    check.add_argument("--all-levels", action="store_true",
+                       help="give every level of each categorical column its own indicator")
+    check.add_argument("--no-intercept", action="store_true", help="leave out the constant")
+    check.add_argument("--keep", metavar="COL", action="append", default=[],
+                       help="keep this design column in the basis when columns are exactly "
+                            "dependent; the first named has the highest priority (repeatable)")
+    check.add_argument("--recipe", metavar="FILE",
+                       help="a recipe JSON file; its steps run before the options above")
+    check.add_argument("--sheet", metavar="NAME", help="the sheet to read from an Excel file")
+    check.add_argument("--tol", metavar="FLOAT", type=float,
+                       help="absolute rank tolerance on the singular values of the unit-length "
+                            "columns (default: σ_max·max(n, p)·eps)")
+    check.add_argument("--json", action="store_true", help="print the diagnosis as JSON")
+    check.add_argument("--fail-if", metavar="RULE", action="append", default=[],
+                       help="exit with code 1 when RULE is crossed (see below; repeatable)")
+    check.set_defaults(run=run_check)
+
+    serve = sub.add_parser("serve", help="open the local web app",
+                           description="Start the local web app, optionally with FILE loaded.")
+    serve.add_argument("file", metavar="FILE", nargs="?", help="a table to open at start")
+    serve.add_argument("--host", default="127.0.0.1", help="address to listen on")
+    serve.add_argument("--port", type=int, default=8000, help="port to listen on")
+    serve.add_argument("--no-browser", action="store_true", help="do not open a browser")
+    serve.set_defaults(run=run_serve)
+    return parser
+
+
+def main(argv: list[str] | None = None) -> int:
+    """Run the command line; returns the exit code (0 ok, 1 threshold crossed, 2 bad input)."""
+    for stream in (sys.stdout, sys.stderr):
+        # A terminal that cannot show ∞ or β gets '?' rather than a crash.
+        if isinstance(stream, io.TextIOWrapper):
+            stream.reconfigure(errors="replace")
+    try:
+        args = build_parser().parse_args(argv)
+        return int(args.run(args))
+    except SystemExit as e:  # --help and --version exit through argparse
+        return e.code if isinstance(e.code, int) else EXIT_OK
+    except InputError as e:
+        print(f"rankscope: {e.message}", file=sys.stderr)
+        return EXIT_BAD_INPUT
+    except OSError as e:  # e.g. an unreadable recipe file, or a port already in use
+        if e.filename:
+            text = f"{e.filename}: cannot be read ({e.strerror or e}). Check the path."
+        else:
+            text = f"{e.strerror or e}."
+        print(f"rankscope: {text}", file=sys.stderr)
+        return EXIT_BAD_INPUT
+
+
+if __name__ == "__main__":
+    raise SystemExit(main())

@@ -1,0 +1,277 @@
+"""The terminal report: a Diagnosis (as its dict) and its Design written as plain text.
+
+Formats finished results only; every number is read from the Diagnosis, none computed here.
+"""
+
+from __future__ import annotations
+
+import math
+import textwrap
+
+from app.design.design import Design
+from app.report.cautions import VIF_MARK, choose_cautions
+
+WIDTH = 100
+INF = "∞"
+NONE = "—"
+
+
+def num(x: float | None, digits: int = 4, missing: str = NONE) -> str:
+    """A number in `digits` significant figures, plain notation where it stays short."""
+    if x is None:
+        return missing
+    if not math.isfinite(x):
+        return INF if x > 0 else "-" + INF
+    if x == 0:
+        return "0"
+    if 1e-4 <= abs(x) < 10 ** max(digits + 2, 7):
+        s = f"{x:.{digits}g}"
+        if "e" in s:  # large integers: write them out
+            s = f"{x:.0f}"
+        return s
+    return f"{x:.{max(digits - 2, 1)}e}"
+
+
+def p_value(p: float | None) -> str:
+    if p is None:
+        return NONE
+    if p == 0:
+        return "<1e-300"  # below the smallest positive double: shown as a bound
+    return f"{p:.2g}" if p >= 1e-4 else f"{p:.1e}"
+
+
+def plural(n: int, word: str) -> str:
+    return f"{n} {word}{'' if n == 1 else 's'}"
+
+
+def heading(title: str) -> list[str]:
+    return ["", title, "─" * min(len(title), WIDTH)]
+
+
+def wrap(text: str, indent: str = "  ", later: str | None = None) -> list[str]:
+    return textwrap.wrap(text, WIDTH, initial_indent=indent,
+                         subsequent_indent=indent if later is None else later) or [indent]
+
+
+def table(rows: list[list[str]], right: set[int], indent: str = "  ") -> list[str]:
+    """Rows of cells in aligned columns; columns in `right` are right-aligned."""
+    widths = [max(len(r[i]) for r in rows if i < len(r)) for i in range(max(map(len, rows)))]
+    out = []
+    for r in rows:
+        cells = [c.rjust(widths[i]) if i in right else c.ljust(widths[i]) for i, c in enumerate(r)]
+        out.append((indent + "  ".join(cells)).rstrip())
+    return out
+
+
+def _header(d: dict, design: Design, source: str | None, notes: list[str]) -> list[str]:
+    lines = [f"rankscope check: {source}" if source else "rankscope check"]
+    cols = d["columns"]
+    resp = d.get("response") or design.response
+    what = f"response {resp}" if resp else "no response (design columns only, no fit)"
+    lines.append(f"  {len(cols)} design columns, {what}.")
+    total, used = design.rows_total, design.rows_used
+    rows = f"  Rows: {used} of {total} used"
+    if total > used and design.dropped_by:
+        parts = ", ".join(f"{c} {k}" for c, k in design.dropped_by.items())
+        rows += f"; {total - used} deleted for a missing value ({parts})"
+    lines.append(rows + ".")
+    for note in [*notes, *design.notes, *d.get("notes", [])]:
+        if note.startswith("Deleted "):
+            continue  # already said on the rows line
+        lines += wrap(note, "  · ", "    ")
+    return lines
+
+
+def _dependencies(d: dict) -> list[str]:
+    deps = d["dependencies"]
+    if not deps:
+        return heading("Exact linear dependencies: none") + wrap(
+            f"No column is a linear combination of the others at rank tolerance "
+            f"{num(d['rank_tolerance'], 3)}.")
+    lines = heading(f"Exact linear dependencies: {len(deps)}")
+    lines += wrap("Each equation holds in every row used (up to the residual shown, a fraction "
+                  "of the column's length). The column on the left has no estimate of its own "
+                  "in the fit below.")
+    for i, dep in enumerate(deps, start=1):
+        lines.append(f"  {i}. {dep['equation']}")
+        res = f"residual {num(dep['residual'], 2)} (factor)"
+        if dep.get("residual_rows") is not None:
+            res += f", {num(dep['residual_rows'], 2)} (rows)"
+        lines.append(f"       {res}")
+    return lines
+
+
+def _rank(d: dict) -> list[str]:
+    p = len(d["columns"])
+    lines = heading("Rank and conditioning")
+    state = "full column rank" if d["full_rank"] else f"deficient by {p - d['rank']}"
+    lines.append(f"  Rank {d['rank']} of {p} columns ({state}); SVD {d['rank_svd']}, "
+                 f"QR basis {d['rank_qr']}.")
+    lines += wrap(f"Rank tolerance {num(d['rank_tolerance'], 3)} on the singular values of the "
+                  f"unit-length columns; rule: {d['tolerance_rule']}.")
+    if d.get("rank_note"):
+        lines += wrap(d["rank_note"])
+    cn = d["condition_number"]
+    lines.append("  Condition numbers (σ_max/σ_min; ∞ when rank deficient):")
+    lines += table([
+        ["raw columns", num(cn["raw"], 4, INF)],
+        ["unit-length columns", num(cn["equilibrated"], 4, INF)],
+        ["centered, unit-length (constant left out)", num(cn["centered"], 4, INF)],
+    ], {1}, "    ")
+    return lines
+
+
+def flagged_dimensions(d: dict) -> set[int]:
+    """Rows of the index table that the core flagged: its near_dependencies carry the
+    row's index and shares, copied from the same numbers, so equality finds the row."""
+    out = set()
+    for f in d["near_dependencies"]:
+        for k, (ix, props) in enumerate(zip(d["condition_indices"], d["variance_proportions"],
+                                            strict=True)):
+            if ix == f["index"] and all(props[c] == v for c, v in f["proportions"].items()):
+                out.add(k)
+    return out
+
+
+def _index_table(d: dict) -> list[str]:
+    names = d["columns"]
+    idx = d["condition_indices"]
+    props = d["variance_proportions"]
+    exact = d["index_exact"]
+    th = d["thresholds"]
+    # Most ill-conditioned dimension first.
+    order = sorted(range(len(idx)), key=lambda k: -(idx[k] if idx[k] is not None else math.inf))
+    flagged = flagged_dimensions(d)
+    lines = heading("Condition indices and variance-decomposition proportions")
+    lines += wrap(
+        "One column per dimension of the unit-length design, most ill-conditioned first. "
+        "Reading down a column: the share of each coefficient's variance tied to that "
+        "dimension (each row sums to 1 across dimensions). '*' marks a share above "
+        f"{num(th['proportion'])} in a dimension whose index exceeds "
+        f"{num(th['condition_index'])} with at least two such shares (common practice); "
+        "'exact' is a dimension at the rank tolerance.")
+    name_w = max(len(n) for n in names + ["condition index"])
+    per = max(1, (WIDTH - name_w - 4) // 8)
+    for start in range(0, len(order), per):
+        chunk = order[start:start + per]
+        head = ["dimension"] + [f"#{start + i + 1}" + ("!" if k in flagged else "")
+                                for i, k in enumerate(chunk)]
+        ix = ["condition index"] + ["exact" if exact[k] else num(idx[k], 3, INF) for k in chunk]
+        rows = [head, ix]
+        for name in names:
+            row = [name]
+            for k in chunk:
+                v = props[k][name]
+                cell = f"{v:.2f}"
+                if k in flagged and v > th["proportion"]:
+                    cell += "*"
+                row.append(cell)
+            rows.append(row)
+        lines.append("")
+        lines += table(rows, set(range(1, len(chunk) + 1)))
+    if d["near_dependencies"]:
+        lines.append("")
+        lines.append("  Flagged near-dependencies ('!' above):")
+        for f in d["near_dependencies"]:
+            parts = ", ".join(f"{c} {v:.2f}" for c, v in f["proportions"].items())
+            kind = "exact" if f["exact"] else f"index {num(f['index'], 3, INF)}"
+            lines += wrap(f"{kind}: {parts}", "    · ", "      ")
+    return lines
+
+
+def _vif(d: dict) -> list[str]:
+    vif = d["vif"]
+    if not vif:
+        return []
+    how = ("centered (the model holds a constant)" if d["vif_centered"]
+           else "uncentered (no constant in the model)")
+    lines = heading(f"Variance inflation, {how}")
+    rows = [["column", "VIF", "tolerance", ""]]
+    for c, v in vif.items():
+        note = ""
+        if v is None:
+            note = "in an exact dependency"
+        elif v > VIF_MARK:
+            note = f"above {VIF_MARK:g}"
+        rows.append([c, num(v, 4, INF), num(d["tolerance"].get(c), 3), note])
+    lines += table(rows, {1, 2})
+    lines += wrap(f"VIF = 1/(1 − R²) of the column on the others; ∞ for a column in an exact "
+                  f"dependency; the mark at {VIF_MARK:g} is common practice.")
+    gv = d.get("gvif") or {}
+    if gv:
+        lines.append("")
+        lines.append("  Generalized VIF of column groups:")
+        rows = [["group", "df", "GVIF", "per-df scale", ""]]
+        for g, info in gv.items():
+            undefined = info["gvif"] is None
+            members_inf = any(vif.get(c, 0.0) is None for c in info["columns"])
+            note = "a member is in an exact dependency" if undefined and members_inf else (
+                "not defined without a constant" if undefined else "")
+            rows.append([g, str(info["df"]), num(info["gvif"], 4, INF if members_inf else NONE),
+                         num(info["gvif_scaled"], 4, INF if members_inf else NONE), note])
+        lines += table(rows, {1, 2, 3}, "    ")
+        lines += wrap("per-df scale = GVIF^(1/(2·df)), comparable with √VIF across groups of "
+                      "different sizes (Fox & Monette, JASA 1992).", "    ")
+    return lines
+
+
+def _fit(d: dict) -> list[str]:
+    fit = d.get("fit")
+    if not fit:
+        return []
+    resp = d.get("response") or "the response"
+    k = fit["n"] - fit["df_residual"]
+    lines = heading(f"Least-squares fit of {resp}")
+    lines.append(f"  {plural(fit['n'], 'row')}, {plural(k, 'estimated coefficient')}, "
+                 f"{plural(fit['df_residual'], 'residual degree')} of freedom"
+                 f"{'; weighted' if fit['weighted'] else ''}.")
+    rows = [["column", "estimate", "std error", "t", "p"]]
+    aliased = set(fit["aliased"])
+    for c in d["columns"]:
+        if c in aliased:
+            rows.append([c, "aliased", NONE, NONE, NONE])
+            continue
+        rows.append([c, num(fit["coefficients"][c], 6), num(fit["std_errors"][c], 4),
+                     num(fit["t_values"][c], 4), p_value(fit["p_values"][c])])
+    lines += table(rows, {1, 2, 3, 4})
+    lines.append("")
+    lines.append(f"  Residual SD {num(fit['residual_std'], 5)} on {fit['df_residual']} df.")
+    kind = "centered" if fit["r_squared_centered"] else "uncentered: no constant"
+    lines.append(f"  R² {num(fit['r_squared'], 5)} ({kind}), adjusted "
+                 f"{num(fit['adj_r_squared'], 5)}.")
+    if fit["f_statistic"] is not None:
+        lines.append(f"  F {num(fit['f_statistic'], 5)} on {fit['df_model']} and "
+                     f"{fit['df_residual']} df, p {p_value(fit['f_p_value'])}.")
+    if fit["alias_structure"]:
+        lines.append("")
+        lines += wrap("Under aliasing each basis estimate is unbiased for a combination of "
+                      "true coefficients, not for its own one:")
+        for a in fit["alias_structure"]:
+            lines += wrap(f"{a['column']} estimates {a['text']}", "    · ", "      ")
+    return lines
+
+
+def _cautions(d: dict) -> list[str]:
+    cs = choose_cautions(d)
+    if not cs:
+        return []
+    lines = heading("Before acting on these numbers")
+    for c in cs:
+        lines += wrap(f"{c.title}. {c.text}", "  · ", "    ")
+    return lines
+
+
+def render_text(
+    diagnosis: dict, design: Design, *, source: str | None = None, notes: list[str] | None = None
+) -> str:
+    """The whole report: dependencies, rank and conditioning, the index table, VIF/GVIF,
+    the fit and the cautions. diagnosis: Diagnosis.to_dict(); source: the file name;
+    notes: what the reader said about the file (Table.notes)."""
+    lines = _header(diagnosis, design, source, list(notes or []))
+    lines += _dependencies(diagnosis)
+    lines += _rank(diagnosis)
+    lines += _index_table(diagnosis)
+    lines += _vif(diagnosis)
+    lines += _fit(diagnosis)
+    lines += _cautions(diagnosis)
+    return "\n".join(lines) + "\n"

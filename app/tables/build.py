@@ -1,0 +1,121 @@
+"""Raw -> Table: check the header and shape, infer each column, note what a person should know."""
+
+from __future__ import annotations
+
+from collections import Counter
+
+import numpy as np
+import pandas as pd
+
+from app.tables.errors import InputError
+from app.tables.infer import infer_column
+from app.tables.kinds import check_overrides
+from app.tables.raw import Raw, short
+from app.tables.table import Table
+
+
+def one_column(where: str, name: str) -> InputError:
+    return InputError(
+        f"The table has only one column ({short(name)}), and a design needs at least 2",
+        where,
+        "Add the other columns (a response and predictors). If the file has them, separate "
+        "them with commas, semicolons, tabs or | - other separators (such as spaces) are not "
+        "recognised",
+    )
+
+
+def build(raw: Raw, declared: dict[str, str] | None = None) -> Table:
+    declared = dict(declared or {})
+    names, keep = _check_header(raw)
+    if raw.n_rows == 0:
+        raise InputError(
+            "The table has a header row but no data rows",
+            raw.where,
+            "Add the data below the header row",
+        )
+    if len(keep) < 2:
+        raise one_column(raw.where, names[keep[0]] if keep else "")
+    check_overrides(declared, [names[j] for j in keep], raw.where)
+    data, kinds, notes = {}, {}, []
+    for j in keep:
+        name = names[j]
+        got = infer_column(raw, j, name, declared.get(name))
+        if got is None:
+            continue
+        values, kind, more = got
+        data[name], kinds[name] = values, kind
+        notes.extend(more)
+        notes.extend(_facts(name, values, kind))
+    if len(data) < 2:
+        raise one_column(raw.where, next(iter(data), ""))
+    frame = pd.DataFrame(data, index=raw.index, copy=False)
+    return Table(frame=frame, kinds=kinds, source=raw.where, notes=raw.notes + notes)
+
+
+def _check_header(raw: Raw) -> tuple[list[str], list[int]]:
+    """Stripped names and the positions of the columns to keep; InputError for bad names."""
+    names = [str(n).strip() for n in raw.names]
+    if any(a != b for a, b in zip(names, raw.names, strict=True)):
+        raw.notes.append("Spaces around column names were removed.")
+    keep, phantom = [], 0
+    for j, name in enumerate(names):
+        col = raw.columns[j]
+        if name:
+            keep.append(j)
+        elif col.null_count == len(col):
+            phantom += 1
+        else:
+            raise InputError(
+                f"Column {j + 1} has data but no name in the header row",
+                f"{raw.where}, header, column {j + 1}",
+                "Give every column a name in the header row",
+            )
+    if phantom:
+        raw.notes.append(f"{phantom} empty column(s) without a name were left out.")
+    counts = Counter(names[j] for j in keep)
+    for name, n in counts.items():
+        if n > 1:
+            where = [str(j + 1) for j in keep if names[j] == name]
+            raise InputError(
+                f"The column name {short(name)} is used {n} times (columns {', '.join(where)})",
+                f"{raw.where}, header",
+                "Give every column a different name",
+            )
+    return names, keep
+
+
+def _facts(name: str, values, kind: str) -> list[str]:
+    """Notes on empty, constant and code-like columns."""
+    if kind == "numeric":
+        v = np.asarray(values)
+        present = v[~np.isnan(v)]
+        if not present.size:
+            return [_empty(name)]
+        lo, hi = present.min(), present.max()
+        if lo == hi:
+            return [f"Column '{name}' is constant (every value is {lo:g})."]
+        if (present == np.floor(present)).all() and hi - lo < 1e6:
+            levels = pd.unique(present)
+            if 3 <= len(levels) <= 10 and present.size >= 5 * len(levels):
+                shown = ", ".join(f"{x:g}" for x in np.sort(levels))
+                return [
+                    f"Column '{name}' holds only the whole numbers {shown}; it is read as "
+                    "numeric. If these are codes for groups, make it categorical."
+                ]
+        return []
+    if kind == "categorical":
+        used = list(values.categories)  # the reader keeps only categories that occur
+    else:
+        used = pd.Series(values).dropna().unique()
+    if len(used) == 0:
+        return [_empty(name)]
+    if len(used) == 1:
+        return [f"Column '{name}' is constant (every value is {short(used[0])})."]
+    return []
+
+
+def _empty(name: str) -> str:
+    return (
+        f"Column '{name}' is empty (every value is missing); a design that uses it would "
+        "have no rows left."
+    )

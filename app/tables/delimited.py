@@ -1,0 +1,214 @@
+"""CSV/TSV bytes -> Raw: pyarrow.csv for speed, Python's csv module where pyarrow gives up.
+
+Python's csv module is also how rows are found again for messages (line numbers as in a text
+editor, header = line 1, a quoted field with newlines spanning several lines).
+"""
+
+from __future__ import annotations
+
+import csv
+import io
+import re
+from collections.abc import Iterable, Iterator
+
+import pandas as pd
+import pyarrow as pa
+import pyarrow.csv as pacsv
+import pyarrow.types as pat
+
+from app.tables import sniff
+from app.tables.build import one_column
+from app.tables.errors import InputError
+from app.tables.raw import Raw
+from app.tables.text import MISSING_MARKERS
+
+csv.field_size_limit(max(csv.field_size_limit(), 1 << 26))
+NON_SPACE = re.compile(rb"\S")
+
+
+class _Legacy(Exception):
+    """The file turned out not to be UTF-8 after all."""
+
+
+def read_text(data: bytes, where: str, ext: str, declared: Iterable[str] = ()) -> Raw:
+    """Read delimited text (already decompressed) into a Raw table of Arrow columns."""
+    notes: list[str] = []
+    data, off = _unbom(data, notes)
+    if not NON_SPACE.search(data, off):
+        raise InputError(
+            "The file is empty", where, "Choose a file with a header row and data rows"
+        )
+    sample = data[off : off + sniff.SAMPLE_BYTES]
+    if sniff.looks_binary(sample):
+        raise InputError(
+            "The file holds binary data, not text",
+            where,
+            f"Choose a table saved as {sniff.SUPPORTED}",
+        )
+    text, encoding = sniff.decode_sample(sample)
+    if encoding != "utf-8":
+        data, off = _transcode(data, off, notes)
+    delimiter = sniff.sniff_delimiter(text, ext)
+    if delimiter is None:
+        first = next(iter(_records(text, ",")), [""])
+        raise one_column(where, first[0])
+    decimal = sniff.sniff_decimal(text, delimiter)
+    header = next(iter(_records(text, delimiter)), [])
+    try:
+        table = _arrow(data, off, delimiter, decimal, header, set(declared))
+    except _Legacy:
+        data, off = _transcode(data, off, notes)
+        table = _arrow(data, off, delimiter, decimal, header, set(declared))
+    if table is not None:
+        names, columns = table.column_names, table.columns
+        index = _line_index(data, off, table.num_rows, delimiter)
+    else:
+        names, columns, index = _python(data, off, delimiter, where)
+        notes.append("The file was read with the slower, more tolerant reader.")
+    if delimiter != "," or decimal == ",":
+        mark = " and ',' as the decimal mark" if decimal == "," else ""
+        notes.append(f"Read as {sniff.DELIMITER_NAMES[delimiter]}-separated text{mark}.")
+    return Raw(
+        names=list(names),
+        columns=list(columns),
+        index=index,
+        where=where,
+        decimal=decimal,
+        cell=lambda pos, j: _cell(data, off, delimiter, pos, j),
+        notes=notes,
+    )
+
+
+def _unbom(data: bytes, notes: list[str]) -> tuple[bytes, int]:
+    if data.startswith(b"\xef\xbb\xbf"):
+        return data, 3
+    if data.startswith((b"\xff\xfe", b"\xfe\xff")):
+        notes.append("The file is UTF-16 text; it was converted to UTF-8.")
+        return data.decode("utf-16").encode("utf-8"), 0
+    return data, 0
+
+
+def _transcode(data: bytes, off: int, notes: list[str]) -> tuple[bytes, int]:
+    text, encoding = sniff.legacy_decode(data[off:])
+    name = {"cp1252": "Windows-1252 (Latin-1)", "latin-1": "Latin-1"}[encoding]
+    notes.append(f"The file is not UTF-8; it was read as {name} text.")
+    return text.encode("utf-8"), 0
+
+
+def _arrow(data, off, delimiter, decimal, header, declared) -> pa.Table | None:
+    """The table via pyarrow, or None when pyarrow cannot parse this file's dialect."""
+    types = {name: pa.string() for name in declared}
+    has_quotes = data.find(b'"', off) >= 0
+    parse = pacsv.ParseOptions(
+        delimiter=delimiter, quote_char='"', double_quote=True, newlines_in_values=has_quotes
+    )
+    for _ in range(len(header) + 1):
+        convert = pacsv.ConvertOptions(
+            null_values=list(MISSING_MARKERS),
+            true_values=["true", "True", "TRUE"],
+            false_values=["false", "False", "FALSE"],
+            strings_can_be_null=True,
+            quoted_strings_can_be_null=True,
+            decimal_point=decimal,
+            column_types=types,
+        )
+        try:
+            table = pacsv.read_csv(
+                pa.BufferReader(pa.py_buffer(data).slice(off)),
+                parse_options=parse,
+                convert_options=convert,
+            )
+        except UnicodeDecodeError:
+            raise _Legacy() from None
+        except pa.ArrowInvalid as e:
+            # pyarrow before 15 fixes a column's type from the first block; later text fails.
+            m = re.search(r"In CSV column #(\d+)", str(e))
+            if m and int(m.group(1)) < len(header) and "conversion error" in str(e):
+                types[header[int(m.group(1))]] = pa.string()
+                continue
+            return None
+        if any(pat.is_binary(f.type) for f in table.schema):
+            raise _Legacy()
+        return table
+    return None
+
+
+def _records(text: str, delimiter: str) -> Iterator[list[str]]:
+    reader = csv.reader(io.StringIO(text, newline=""), delimiter=delimiter, quotechar='"')
+    try:
+        for rec in reader:
+            if rec:
+                yield rec
+    except csv.Error:
+        return
+
+
+def _scan(data: bytes, off: int, delimiter: str) -> Iterator[tuple[int, list[str]]]:
+    """(first line, fields) of each non-blank record; the header is the first."""
+    text = data[off:].decode("utf-8", errors="replace")
+    reader = csv.reader(io.StringIO(text, newline=""), delimiter=delimiter, quotechar='"')
+    done = 0
+    for rec in reader:
+        start, done = done + 1, reader.line_num
+        if rec:
+            yield start, rec
+
+
+def _line_index(data: bytes, off: int, n_rows: int, delimiter: str) -> pd.Index:
+    """Editor line of each data row: 2 + i when the file has one line per row; when blank lines
+    or quoted newlines make more lines than rows, the file is scanned once to find them."""
+    end = len(data)
+    while end > off and data[end - 1] in b"\r\n":
+        end -= 1
+    newline = b"\n" if data.find(b"\n", off, min(end, off + sniff.SAMPLE_BYTES)) >= 0 else b"\r"
+    lines = data.count(newline, off, end) + 1
+    if lines == n_rows + 1 and data[off : off + 1] not in (b"\r", b"\n"):
+        return pd.RangeIndex(2, n_rows + 2, name="line")
+    starts = [start for start, _ in _scan(data, off, delimiter)][1:]
+    if len(starts) != n_rows:  # the two parsers disagree; fall back to plain numbering
+        return pd.RangeIndex(2, n_rows + 2, name="line")
+    return pd.Index(starts, dtype="int64", name="line")
+
+
+def _python(data: bytes, off: int, delimiter: str, where: str):
+    """Parse with Python's csv module: names, Arrow string columns, line index."""
+    records = _scan(data, off, delimiter)
+    try:
+        _, names = next(records)
+    except StopIteration:
+        raise InputError("The file is empty", where, "Choose a file with a header row") from None
+    columns: list[list[str | None]] = [[] for _ in names]
+    lines: list[int] = []
+    for line, rec in records:
+        if len(rec) != len(names):
+            raise ragged(where, line, len(names), rec, delimiter)
+        for col, value in zip(columns, rec, strict=True):
+            col.append(value if value != "" else None)
+        lines.append(line)
+    arrays = [pa.chunked_array([pa.array(col, pa.string())]) for col in columns]
+    return names, arrays, pd.Index(lines, dtype="int64", name="line")
+
+
+def ragged(where: str, line: int, expected: int, rec: list[str], delimiter: str) -> InputError:
+    name = sniff.DELIMITER_NAMES[delimiter]
+    if any("\n" in f or "\r" in f for f in rec):
+        return InputError(
+            f'A quote (") opened on line {line} is not closed where expected, so the row '
+            f"runs on over several lines",
+            f"{where}, line {line}",
+            'Close the quote, or double a quote that is part of the text ("")',
+        )
+    return InputError(
+        f"Line {line} has {len(rec)} fields but the header has {expected}",
+        f"{where}, line {line}",
+        f"Give every row {expected} fields separated by {name}s; put a field in double quotes "
+        f"if it contains a {name}",
+    )
+
+
+def _cell(data: bytes, off: int, delimiter: str, pos: int, j: int) -> str | None:
+    """The text of data row pos, column j, as written in the file (for messages)."""
+    for k, (_, rec) in enumerate(_scan(data, off, delimiter)):
+        if k == pos + 1:
+            return rec[j] if j < len(rec) else None
+    return None

@@ -1,0 +1,179 @@
+"""Read a user's file into a typed Table: read_table(path) for files, read_bytes for uploads.
+
+The format comes from the content where the content says it (gzip, xlsx, Parquet, images and
+other non-tables), else from the extension; see docs/tables.md for the rules.
+"""
+
+from __future__ import annotations
+
+import gzip
+import io
+import os
+import zlib
+from pathlib import Path
+
+from app.tables import sniff
+from app.tables.build import build
+from app.tables.delimited import read_text
+from app.tables.errors import InputError
+from app.tables.excel import read_excel
+from app.tables.kinds import with_kinds
+from app.tables.parquet import read_parquet
+from app.tables.table import Table
+
+MAX_BYTES = 2_000_000_000
+UNSUPPORTED_EXTS = {
+    ".json": "JSON", ".xml": "XML", ".html": "HTML", ".htm": "HTML", ".ods": "OpenDocument",
+    ".dta": "Stata", ".sav": "SPSS", ".rds": "R", ".rdata": "R", ".sas7bdat": "SAS",
+    ".feather": "Feather", ".arrow": "Arrow", ".docx": "Word", ".doc": "Word", ".pdf": "PDF",
+}  # fmt: skip
+
+__all__ = ["read_table", "read_bytes", "missing_summary", "with_kinds", "MAX_BYTES"]
+
+
+def read_table(
+    path: str | os.PathLike,
+    *,
+    sheet: str | int | None = None,
+    max_bytes: int = MAX_BYTES,
+    name: str | None = None,
+    kinds: dict[str, str] | None = None,
+) -> Table:
+    """Read a CSV/TSV (optionally .gz), .xlsx or Parquet file into a Table.
+
+    sheet: Excel sheet name, or index counting from 0 (default: the first sheet).
+    max_bytes: refuse files (and decompressed content) larger than this.
+    name: the file name to use in messages and Table.source (default: path as given).
+    kinds: declared kinds for some columns ({"zip": "categorical"}); these skip inference.
+    Raises InputError for anything a user can fix.
+    """
+    where = name or str(path)
+    p = Path(path)
+    try:
+        size = p.stat().st_size
+        if p.is_dir():
+            raise InputError("This is a folder, not a file", where, "Choose a file")
+        _check_size(size, max_bytes, where)
+        data = p.read_bytes()
+    except FileNotFoundError:
+        raise InputError(
+            "The file does not exist", where, "Check the file name and folder"
+        ) from None
+    except PermissionError:
+        raise InputError(
+            "The file cannot be opened (permission denied)", where, "Check its permissions"
+        ) from None
+    return _read(data, p.name, where, sheet, max_bytes, kinds)
+
+
+def read_bytes(
+    data: bytes,
+    filename: str,
+    *,
+    sheet: str | int | None = None,
+    max_bytes: int = MAX_BYTES,
+    name: str | None = None,
+    kinds: dict[str, str] | None = None,
+) -> Table:
+    """Like read_table, for a file's content already in memory (web uploads)."""
+    where = name or filename
+    _check_size(len(data), max_bytes, where)
+    return _read(bytes(data), filename, where, sheet, max_bytes, kinds)
+
+
+def missing_summary(table: Table) -> dict[str, int]:
+    """Number of missing values in each column, in column order."""
+    return {str(c): int(n) for c, n in table.frame.isna().sum().items()}
+
+
+def _check_size(size: int, max_bytes: int, where: str) -> None:
+    if size > max_bytes:
+        raise InputError(
+            f"The file is {_mb(size)}, over the limit of {_mb(max_bytes)}",
+            where,
+            "Use a smaller file, e.g. only the rows and columns you need",
+        )
+
+
+def _mb(n: int) -> str:
+    return f"{n / 1e6:,.1f} MB" if n >= 100_000 else f"{n:,} bytes"
+
+
+def _read(data: bytes, filename: str, where: str, sheet, max_bytes: int, kinds) -> Table:
+    ext, gz = sniff.suffixes(filename)
+    notes: list[str] = []
+    kind = sniff.content_kind(data[:16])
+    if kind == "gzip":
+        data = _gunzip(data, where, max_bytes)
+        kind = sniff.content_kind(data[:16])
+        if not gz:
+            notes.append("The file is gzip-compressed; it was decompressed.")
+    elif gz:
+        notes.append("The file name ends in .gz but the content is not compressed.")
+    fmt = _format(data, kind, ext, where)
+    if fmt == "excel":
+        raw = read_excel(data, where, sheet, max_bytes)
+    elif fmt == "parquet":
+        raw = read_parquet(data, where)
+    else:
+        raw = read_text(data, where, ext, declared=(kinds or {}).keys())
+    if fmt != "excel" and sheet is not None:
+        notes.append("A sheet was chosen, but only Excel workbooks have sheets; it was ignored.")
+    expected = {"excel": sniff.EXCEL_EXTS, "parquet": sniff.PARQUET_EXTS}.get(fmt)
+    if expected is not None and ext not in expected:
+        label = {"excel": "an Excel workbook", "parquet": "a Parquet file"}[fmt]
+        notes.append(f"The file is {label} although its name ends in '{ext}'.")
+    raw.notes[:0] = notes
+    return build(raw, kinds)
+
+
+def _format(data: bytes, kind: str | None, ext: str, where: str) -> str:
+    if kind == "zip":
+        return sniff.zip_kind(data)
+    if kind == "parquet":
+        return "parquet"
+    foreign = sniff.foreign_kind(data[:16])
+    if foreign:
+        todo = f"Save the table as {sniff.SUPPORTED}"
+        if "old-style" in foreign:
+            todo = "Open it in Excel and save it as .xlsx (without a password) or CSV"
+        raise InputError(f"This is {foreign}, not a table rankscope can read", where, todo)
+    binary = sniff.looks_binary(data[: sniff.SAMPLE_BYTES])
+    if ext in sniff.EXCEL_EXTS or ext in sniff.PARQUET_EXTS:
+        label = "an Excel workbook" if ext in sniff.EXCEL_EXTS else "a Parquet file"
+        looks = "binary data of another kind" if binary else "text (perhaps CSV)"
+        raise InputError(
+            f"The name ends in '{ext}', but this is not {label}: it holds {looks}",
+            where,
+            "Check that this is the right file; if it is CSV text, rename it to .csv",
+        )
+    if ext == ".xls" and binary:
+        raise InputError(
+            "Old Excel .xls workbooks are not supported", where, "Save it as .xlsx or CSV"
+        )
+    if ext in UNSUPPORTED_EXTS:
+        raise InputError(
+            f"{UNSUPPORTED_EXTS[ext]} files ({ext}) are not supported",
+            where,
+            f"Save the table as {sniff.SUPPORTED}",
+        )
+    return "text"
+
+
+def _gunzip(data: bytes, where: str, max_bytes: int) -> bytes:
+    try:
+        with gzip.GzipFile(fileobj=io.BytesIO(data)) as f:
+            out = f.read(max_bytes + 1)
+    except (OSError, EOFError, zlib.error):
+        raise InputError(
+            "The file is gzip-compressed but damaged or incomplete",
+            where,
+            "Compress or download the file again",
+        ) from None
+    if len(out) > max_bytes:
+        raise InputError(
+            f"The file decompresses to more than the limit of {_mb(max_bytes)}",
+            where,
+            "Use a smaller file, e.g. only the rows and columns you need",
+        )
+    return out
