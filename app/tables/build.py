@@ -1,4 +1,7 @@
-"""Raw -> Table: check the header and shape, infer each column, note what a person should know."""
+"""Raw -> Table: check the header and shape, infer each column, note what a person should know.
+
+No file formats here (the readers) and no design decisions (app/design).
+"""
 
 from __future__ import annotations
 
@@ -9,7 +12,7 @@ import pandas as pd
 
 from app.tables.errors import InputError
 from app.tables.infer import infer_column
-from app.tables.kinds import check_overrides
+from app.tables.kinds import check_overrides, number_text
 from app.tables.raw import Raw, short
 from app.tables.table import Table
 
@@ -93,11 +96,11 @@ def _facts(name: str, values, kind: str) -> list[str]:
             return [_empty(name)]
         lo, hi = present.min(), present.max()
         if lo == hi:
-            return [f"Column '{name}' is constant (every value is {lo:g})."]
+            return [f"Column '{name}' is constant (every value is {number_text(lo)})."]
         if (present == np.floor(present)).all() and hi - lo < 1e6:
             levels = pd.unique(present)
             if 3 <= len(levels) <= 10 and present.size >= 5 * len(levels):
-                shown = ", ".join(f"{x:g}" for x in np.sort(levels))
+                shown = ", ".join(number_text(x) for x in np.sort(levels))
                 return [
                     f"Column '{name}' holds only the whole numbers {shown}; it is read as "
                     "numeric. If these are codes for groups, make it categorical."

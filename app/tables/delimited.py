@@ -1,5 +1,7 @@
 """CSV/TSV bytes -> Raw: pyarrow.csv for speed, Python's csv module where pyarrow gives up.
 
+Does not decide kinds (infer.py does) beyond pyarrow's own number/date parsing.
+
 Python's csv module is also how rows are found again for messages (line numbers as in a text
 editor, header = line 1, a quoted field with newlines spanning several lines).
 """
@@ -13,6 +15,7 @@ from collections.abc import Iterable, Iterator
 
 import pandas as pd
 import pyarrow as pa
+import pyarrow.compute as pc
 import pyarrow.csv as pacsv
 import pyarrow.types as pat
 
@@ -55,16 +58,18 @@ def read_text(data: bytes, where: str, ext: str, declared: Iterable[str] = ()) -
     decimal = sniff.sniff_decimal(text, delimiter)
     header = next(iter(_records(text, delimiter)), [])
     try:
-        table = _arrow(data, off, delimiter, decimal, header, set(declared))
+        table, one_line_rows = _arrow(data, off, delimiter, decimal, header, set(declared))
     except _Legacy:
         data, off = _transcode(data, off, notes)
-        table = _arrow(data, off, delimiter, decimal, header, set(declared))
+        table, one_line_rows = _arrow(data, off, delimiter, decimal, header, set(declared))
     if table is not None:
         names, columns = table.column_names, table.columns
-        index = _line_index(data, off, table.num_rows, delimiter)
+        if one_line_rows:
+            index = pd.RangeIndex(2, table.num_rows + 2, name="line")
+        else:
+            index = _line_index(data, off, table.num_rows, delimiter)
     else:
-        names, columns, index = _python(data, off, delimiter, where)
-        notes.append("The file was read with the slower, more tolerant reader.")
+        names, columns, index = _python(data, off, delimiter, where, notes)
     if delimiter != "," or decimal == ",":
         mark = " and ',' as the decimal mark" if decimal == "," else ""
         notes.append(f"Read as {sniff.DELIMITER_NAMES[delimiter]}-separated text{mark}.")
@@ -95,14 +100,20 @@ def _transcode(data: bytes, off: int, notes: list[str]) -> tuple[bytes, int]:
     return text.encode("utf-8"), 0
 
 
-def _arrow(data, off, delimiter, decimal, header, declared) -> pa.Table | None:
-    """The table via pyarrow, or None when pyarrow cannot parse this file's dialect."""
+def _arrow(data, off, delimiter, decimal, header, declared) -> tuple[pa.Table | None, bool]:
+    """The table via pyarrow (None when pyarrow cannot parse this dialect), and whether each
+    data row is known to sit on its own line (no quotes, no blank lines: line = 2 + row)."""
     types = {name: pa.string() for name in declared}
     has_quotes = data.find(b'"', off) >= 0
-    parse = pacsv.ParseOptions(
-        delimiter=delimiter, quote_char='"', double_quote=True, newlines_in_values=has_quotes
-    )
-    for _ in range(len(header) + 1):
+    one_line_rows = not has_quotes  # then blank lines are kept as rows, and checked for
+    for _ in range(len(header) + 2):
+        parse = pacsv.ParseOptions(
+            delimiter=delimiter,
+            quote_char='"',
+            double_quote=True,
+            newlines_in_values=has_quotes,
+            ignore_empty_lines=not one_line_rows,
+        )
         convert = pacsv.ConvertOptions(
             null_values=list(MISSING_MARKERS),
             true_values=["true", "True", "TRUE"],
@@ -126,11 +137,27 @@ def _arrow(data, off, delimiter, decimal, header, declared) -> pa.Table | None:
             if m and int(m.group(1)) < len(header) and "conversion error" in str(e):
                 types[header[int(m.group(1))]] = pa.string()
                 continue
-            return None
+            if one_line_rows:
+                one_line_rows = False
+                continue
+            return None, False
         if any(pat.is_binary(f.type) for f in table.schema):
             raise _Legacy()
-        return table
-    return None
+        if one_line_rows and _has_empty_rows(table):  # blank lines came through as rows
+            one_line_rows = False
+            continue
+        return table, one_line_rows
+    return None, False
+
+
+def _has_empty_rows(table: pa.Table) -> bool:
+    empty = None
+    for col in table.columns:
+        nulls = col.is_null()
+        empty = nulls if empty is None else pc.and_(empty, nulls)
+        if not pc.any(empty).as_py():
+            return False
+    return empty is not None
 
 
 def _records(text: str, delimiter: str) -> Iterator[list[str]]:
@@ -170,21 +197,38 @@ def _line_index(data: bytes, off: int, n_rows: int, delimiter: str) -> pd.Index:
     return pd.Index(starts, dtype="int64", name="line")
 
 
-def _python(data: bytes, off: int, delimiter: str, where: str):
-    """Parse with Python's csv module: names, Arrow string columns, line index."""
+def _python(data: bytes, off: int, delimiter: str, where: str, notes: list[str]):
+    """Parse with Python's csv module: names, Arrow string columns, line index.
+
+    Forgives one quirk of spreadsheet exports: a delimiter at the end of the header only, or
+    at the end of every row only (the extra field must be empty); a note says so."""
     records = _scan(data, off, delimiter)
     try:
         _, names = next(records)
     except StopIteration:
         raise InputError("The file is empty", where, "Choose a file with a header row") from None
+    width = len(names)
+    short_ok = width > 1 and names[-1].strip() == ""
     columns: list[list[str | None]] = [[] for _ in names]
     lines: list[int] = []
+    forgiven, first_extra = 0, None
     for line, rec in records:
-        if len(rec) != len(names):
-            raise ragged(where, line, len(names), rec, delimiter)
+        if len(rec) != width:
+            if short_ok and len(rec) == width - 1:
+                rec = [*rec, ""]
+            elif len(rec) == width + 1 and rec[-1] == "" and forgiven == len(lines):
+                first_extra = first_extra or (line, rec)
+                rec = rec[:-1]
+                forgiven += 1
+            else:
+                raise ragged(where, line, width, rec, delimiter)
         for col, value in zip(columns, rec, strict=True):
             col.append(value if value != "" else None)
         lines.append(line)
+    if first_extra and forgiven < len(lines):
+        raise ragged(where, first_extra[0], width, first_extra[1], delimiter)
+    if forgiven:
+        notes.append("Every row ends with an extra delimiter; the empty last field was ignored.")
     arrays = [pa.chunked_array([pa.array(col, pa.string())]) for col in columns]
     return names, arrays, pd.Index(lines, dtype="int64", name="line")
 

@@ -1,5 +1,7 @@
 """Excel .xlsx bytes -> Raw: one sheet, header = first non-empty row, rows as Excel numbers them.
 
+Does not decide kinds (infer.py does).
+
 Cells keep the types Excel stored: a column of numbers is numeric, of dates is date, of
 TRUE/FALSE is boolean. Columns mixing types (or holding text) go through the same text rules as
 CSV files, so "n/a" in a column of numbers is missing and other text there is an error.
@@ -72,6 +74,8 @@ def _pick_sheet(book, sheet, where):
     titles = book.sheetnames
     listed = ", ".join(repr(t) for t in titles)
     notes: list[str] = []
+    if isinstance(sheet, str) and sheet.strip().isdigit() and sheet not in titles:
+        sheet = int(sheet)  # "1" from a command line or a form means the index
     if sheet is None:
         title = titles[0]
         if len(titles) > 1:

@@ -1,5 +1,7 @@
 """Decide each column's kind (numeric, categorical, boolean, date) and convert it.
 
+Works on Arrow columns from any reader; knows nothing of file formats or designs.
+
 Rules (see docs/tables.md):
 - A column whose present cells are all numbers is numeric, however few distinct values it has
   (0/1 and small integer codes stay numeric; a note names integer columns with 3-10 values).
@@ -32,7 +34,7 @@ FIX_TEXT = (
 
 
 def infer_column(raw: Raw, j: int, name: str, declared: str | None):
-    """(values, kind, notes) for column j, or None for a column that cannot be used (with a note)."""
+    """(values, kind, notes) for column j, or None (with a note) for a column that can't be used."""
     arr = raw.columns[j]
     if isinstance(arr, pa.Array):
         arr = pa.chunked_array([arr])
@@ -40,6 +42,8 @@ def infer_column(raw: Raw, j: int, name: str, declared: str | None):
     if pat.is_dictionary(t):
         arr = pa.chunked_array([c.dictionary_decode() for c in arr.chunks], t.value_type)
         t = arr.type
+    if _is_view(t):
+        arr, t = arr.cast(pa.large_string()), pa.large_string()
     if pat.is_string(t) or pat.is_large_string(t):
         return _text(raw, j, name, arr, declared)
     if pat.is_null(t):
@@ -70,6 +74,11 @@ def infer_column(raw: Raw, j: int, name: str, declared: str | None):
         values, more = convert(values, kind, declared, name=name, where=raw.where, index=raw.index)
         return values, declared, notes + more
     return values, kind, notes
+
+
+def _is_view(t: pa.DataType) -> bool:
+    is_view = getattr(pat, "is_string_view", None)  # pyarrow >= 16
+    return bool(is_view and is_view(t))
 
 
 def _numbers(raw: Raw, j: int, name: str, arr: pa.ChunkedArray) -> np.ndarray:

@@ -1,5 +1,7 @@
 """User overrides of column kinds: with_kinds(table, {"column": "categorical", ...}).
 
+Converts existing Table columns only; no reading and no inference.
+
 Conversions: categorical text -> numeric / boolean / date with the reader's rules (missing
 markers stay missing; a decimal comma is accepted when every number uses one); numeric ->
 categorical (categories in numeric order, whole numbers without ".0"); numeric 0/1 -> boolean;
@@ -120,7 +122,7 @@ def _to_categories(values, old: str) -> pd.Categorical:
     if old == "numeric":
         arr = np.asarray(values, dtype=np.float64)
         uniq = np.unique(arr[~np.isnan(arr)])
-        labels = [_number_text(v) for v in uniq]
+        labels = [number_text(v) for v in uniq]
         codes = np.searchsorted(uniq, arr)
         codes[np.isnan(arr)] = -1
         return pd.Categorical.from_codes(codes, categories=pd.Index(labels, dtype="str"))
@@ -140,12 +142,12 @@ def _numbers_to_bool(arr: np.ndarray) -> pd.arrays.BooleanArray:
     bad = ~missing & (arr != 0) & (arr != 1)
     if bad.any():
         rows = np.flatnonzero(bad)
-        examples = [_number_text(v) for v in dict.fromkeys(arr[rows[:1000]].tolist())][:3]
+        examples = [number_text(v) for v in dict.fromkeys(arr[rows[:1000]].tolist())][:3]
         raise Offending(int(rows[0]), len(rows), examples, "a number other than 0 or 1")
     return pd.arrays.BooleanArray(arr == 1, missing)
 
 
-def _number_text(v: float) -> str:
+def number_text(v: float) -> str:
     if float(v).is_integer() and abs(v) < 1e15:
         return str(int(v))
     return repr(float(v))

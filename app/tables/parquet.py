@@ -1,4 +1,7 @@
-"""Parquet bytes -> Raw. Column types come from the file: text stays categorical."""
+"""Parquet bytes -> Raw. Column types come from the file: text stays categorical.
+
+Does not decide kinds (infer.py does).
+"""
 
 from __future__ import annotations
 

@@ -1,5 +1,7 @@
 """What a format reader hands to type inference: named Arrow columns plus where each row sits.
 
+Holds data and message helpers only; no reading, no kind decisions.
+
 Row numbers are those a person sees: the line in a text editor (header = line 1), the spreadsheet
 row, or the record number of a Parquet file. They become the index of Table.frame, named
 "line", "row" or "record", so later steps (overrides, listwise deletion) can still name rows.

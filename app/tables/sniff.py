@@ -126,7 +126,7 @@ def looks_binary(sample: bytes) -> bool:
 
 
 def decode_sample(sample: bytes) -> tuple[str, str]:
-    """Decode a text sample: returns (text, encoding) with encoding 'utf-8' or 'cp1252'/'latin-1'."""
+    """(text, encoding) of a text sample; encoding is 'utf-8', 'cp1252' or 'latin-1'."""
     cut = sample
     for _ in range(4):  # a multi-byte character may be cut at the end of the sample
         try:
@@ -139,7 +139,7 @@ def decode_sample(sample: bytes) -> tuple[str, str]:
 
 
 def legacy_decode(data: bytes) -> tuple[str, str]:
-    """Windows-1252 where it decodes (a superset of Latin-1's printable characters), else Latin-1."""
+    """Windows-1252 where it decodes (a superset of Latin-1's printable range), else Latin-1."""
     try:
         return data.decode("cp1252"), "cp1252"
     except UnicodeDecodeError:

@@ -19,6 +19,9 @@ class Table:
     frame: columns in file order. numeric -> float64 (NaN = missing),
         categorical -> pandas "category" dtype (string categories),
         boolean -> pandas "boolean" (nullable), date -> datetime64[ns].
+        Its index is the row number a person sees, for messages: named "line" for text files
+        (the editor line where the row starts; header = line 1), "row" for spreadsheets
+        (the sheet's row number), "record" for Parquet (1 = first record).
     kinds: column name -> one of KINDS (what the reader inferred or the user chose).
     source: the file name as given by the user (for messages).
     notes: plain sentences about what the reader inferred, converted or refused.

@@ -1,5 +1,7 @@
 """Text cells -> numbers, booleans, dates or categories; shared by inference and overrides.
 
+No files and no wording here: cells that do not fit are raised as Offending for callers to word.
+
 A text column is held as its distinct values plus one code per row (-1 = empty in the file), so
 every test runs once per distinct value, not once per row.
 """

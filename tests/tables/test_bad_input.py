@@ -298,3 +298,20 @@ def test_message_has_all_three_parts():
         "data.csv, line 3: Line 3 has 3 fields but the header has 2. Give every row 2 fields "
         "separated by commas; put a field in double quotes if it contains a comma."
     )
+
+
+def test_trailing_delimiter_on_header_only_is_forgiven():
+    table = read_bytes(b"a,b,\n1,2\n3,4\n", "data.csv")
+    assert table.columns == ["a", "b"]
+
+
+def test_trailing_delimiter_on_every_row_is_forgiven():
+    table = read_bytes(b"a;b\n1;2;\n3;4;\n", "data.csv")
+    assert table.frame["b"].tolist() == [2.0, 4.0]
+    assert any("extra delimiter" in n for n in table.notes)
+
+
+def test_trailing_delimiter_on_some_rows_is_ragged():
+    e = error(b"a;b\n1;2\n3;4;\n5;6\n")
+    assert e.where == "data.csv, line 3"
+    assert "separated by semicolons" in e.todo

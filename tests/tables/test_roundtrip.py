@@ -189,7 +189,7 @@ def test_xlsx_first_sheet_by_default(tmp_path, df):
     assert any("first sheet" in n for n in table.notes)
 
 
-@pytest.mark.parametrize("sheet", ["Other", 1])
+@pytest.mark.parametrize("sheet", ["Other", 1, "1"])
 def test_xlsx_chosen_sheet(tmp_path, df, sheet):
     path = tmp_path / "t.xlsx"
     with pd.ExcelWriter(path) as w:  # reference writer: pandas -> openpyxl
@@ -222,3 +222,12 @@ def test_xlsx_content_with_csv_name(tmp_path, df):
     table = read_bytes(path.read_bytes(), "export.csv")
     check(table, df)
     assert any("Excel workbook although" in n for n in table.notes)
+
+
+def test_all_empty_row_is_a_row_of_missing(tmp_path):
+    path = tmp_path / "t.csv"
+    path.write_text("a,b\n1,2\n,\n3,4\n")
+    table = read_table(path)
+    assert table.n_rows == 3
+    assert list(table.frame.index) == [2, 3, 4]
+    assert table.frame["a"].isna().tolist() == [False, True, False]

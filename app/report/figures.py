@@ -1,0 +1,237 @@
+"""Plotly figure builders: pure functions from a diagnosis dict to a figure dict (web, report).
+
+No I/O and no plotly import; no numerics beyond ordering and scaling numbers for display.
+"""
+
+from __future__ import annotations
+
+import math
+from typing import Any
+
+from app.report.cautions import VIF_MARK
+
+Figure = dict[str, Any]
+
+# The rankscope palette (also in static/rankscope.css): ink, teal, brick, amber, paper.
+INK = "#1d2b36"
+TEAL = "#0f6b72"
+TEAL_LIGHT = "#7fb7b9"
+BRICK = "#a8432f"
+AMBER = "#c98a1b"
+PAPER = "#fbfaf6"
+GRID = "#e4e0d6"
+
+#: Diverging scale for correlations: brick for −1, paper for 0, teal for +1.
+CORRELATION_SCALE = [[0.0, BRICK], [0.5, "#f4f1ea"], [1.0, TEAL]]
+
+#: The VIF guide line: the same common-practice mark the cautions use, drawn as a guide only.
+VIF_GUIDE = VIF_MARK
+
+
+def _layout(title: str, **extra: Any) -> dict[str, Any]:
+    base: dict[str, Any] = {
+        "title": {"text": title, "x": 0.0, "xanchor": "left", "font": {"size": 15, "color": INK}},
+        "paper_bgcolor": PAPER,
+        "plot_bgcolor": PAPER,
+        "font": {"family": "system-ui, -apple-system, 'Segoe UI', sans-serif", "color": INK,
+                 "size": 12},
+        "margin": {"l": 60, "r": 20, "t": 48, "b": 48},
+    }
+    base.update(extra)
+    return base
+
+
+def _axis(title: str, **extra: Any) -> dict[str, Any]:
+    return {"title": {"text": title}, "gridcolor": GRID, "zerolinecolor": GRID, **extra}
+
+
+def correlation_heatmap(diagnosis: dict, method: str = "pearson") -> Figure | None:
+    """Correlation matrix (Pearson or Spearman) of the non-constant columns, in the
+    clustered order of the diagnosis, so strongly related columns sit next to each other.
+
+    None when the diagnosis has no such matrix (Spearman without rows, or < 2 columns).
+    """
+    corr = diagnosis.get("correlations") or {}
+    matrix = corr.get(method)
+    names = corr.get("columns") or []
+    if matrix is None or len(names) < 2:
+        return None
+    order = corr.get("order") or list(range(len(names)))
+    labels = [names[i] for i in order]
+    z = [[matrix[i][j] for j in order] for i in order]
+    text = [[f"{v:.3f}" for v in row] for row in z]
+    label = "Pearson" if method == "pearson" else "Spearman (rank)"
+    size = max(360, min(900, 140 + 22 * len(labels)))
+    return {
+        "data": [{
+            "type": "heatmap",
+            "z": z,
+            "x": labels,
+            "y": labels,
+            "zmin": -1.0,
+            "zmax": 1.0,
+            "colorscale": CORRELATION_SCALE,
+            "text": text,
+            "hovertemplate": "%{y} with %{x}: %{text}<extra></extra>",
+            "colorbar": {"title": {"text": "r"}, "thickness": 12},
+        }],
+        "layout": _layout(
+            f"{label} correlations, related columns grouped",
+            height=size,
+            xaxis={"tickangle": -45, "automargin": True, "side": "bottom"},
+            yaxis={"autorange": "reversed", "automargin": True},
+        ),
+    }
+
+
+def singular_value_spectrum(diagnosis: dict) -> Figure:
+    """Singular values of the unit-length design on a log scale, with the rank tolerance.
+
+    Values at zero cannot sit on a log axis: they are drawn at a floor below the
+    tolerance and labelled as zero.
+    """
+    sv = list(diagnosis["singular_values"]["equilibrated"])
+    tol = float(diagnosis["rank_tolerance"])
+    positive = [s for s in sv if s > 0]
+    floor = min([tol / 1e3] + [s / 10 for s in positive]) if (positive or tol > 0) else 1e-16
+    floor = floor if floor > 0 else 1e-16
+    shown = [s if s > 0 else floor for s in sv]
+    above = [s > tol for s in sv]
+    colors = [TEAL if a else BRICK for a in above]
+    hover = [
+        f"σ{k + 1} = {s:.4g}" + ("" if a else " (at or below the tolerance: exact dependency)")
+        if s > 0 else f"σ{k + 1} = 0 (exact dependency)"
+        for k, (s, a) in enumerate(zip(sv, above, strict=True))
+    ]
+    k = list(range(1, len(sv) + 1))
+    return {
+        "data": [
+            {
+                "type": "scatter",
+                "mode": "lines+markers",
+                "x": k,
+                "y": shown,
+                "marker": {"color": colors, "size": 9},
+                "line": {"color": TEAL_LIGHT, "width": 1.5},
+                "text": hover,
+                "hovertemplate": "%{text}<extra></extra>",
+                "name": "singular values",
+            },
+            {
+                "type": "scatter",
+                "mode": "lines",
+                "x": [0.5, len(sv) + 0.5],
+                "y": [tol, tol] if tol > 0 else [floor, floor],
+                "line": {"color": BRICK, "dash": "dash", "width": 1.5},
+                "name": f"rank tolerance {tol:.3g}",
+                "hoverinfo": "name",
+            },
+        ],
+        "layout": _layout(
+            f"Singular values (columns scaled to unit length): rank {diagnosis['rank']} "
+            f"of {len(sv)}",
+            xaxis=_axis("position, largest first", dtick=1 if len(sv) <= 30 else None),
+            yaxis=_axis("singular value", type="log", exponentformat="power"),
+            legend={"orientation": "h", "y": -0.2},
+            height=360,
+        ),
+    }
+
+
+def inflation_bars(diagnosis: dict) -> Figure | None:
+    """VIF per column, largest first, log scale. Infinite VIFs (columns in an exact
+    dependency) are drawn at the right edge in brick and labelled as infinite."""
+    vif = diagnosis.get("vif") or {}
+    if not vif:
+        return None
+    finite = [v for v in vif.values() if v is not None]
+    edge = max(finite + [VIF_GUIDE]) * 10
+    ordered = sorted(vif.items(), key=lambda kv: -(math.inf if kv[1] is None else kv[1]))
+    names = [c for c, _ in ordered]
+    values = [edge if v is None else v for _, v in ordered]
+    colors = [BRICK if v is None else (AMBER if v >= VIF_GUIDE else TEAL) for _, v in ordered]
+    text = ["∞" if v is None else f"{v:.3g}" for _, v in ordered]
+    kind = "centered" if diagnosis.get("vif_centered") else "uncentered (no constant)"
+    return {
+        "data": [{
+            "type": "bar",
+            "orientation": "h",
+            "x": values,
+            "y": names,
+            "marker": {"color": colors},
+            "text": text,
+            "textposition": "outside",
+            "cliponaxis": False,
+            "hovertemplate": "%{y}: VIF %{text}<extra></extra>",
+        }],
+        "layout": _layout(
+            f"Variance inflation per column ({kind})",
+            xaxis=_axis("VIF (log scale)", type="log", range=[0, math.log10(edge) + 0.4]),
+            yaxis={"autorange": "reversed", "automargin": True},
+            height=max(260, 70 + 24 * len(names)),
+            shapes=[{
+                "type": "line", "xref": "x", "yref": "paper", "x0": VIF_GUIDE, "x1": VIF_GUIDE,
+                "y0": 0, "y1": 1, "line": {"color": AMBER, "dash": "dot", "width": 1},
+            }],
+            annotations=[{
+                "x": math.log10(VIF_GUIDE), "xref": "x", "y": 1.0, "yref": "paper",
+                "text": f"{VIF_GUIDE:g}: common guide", "showarrow": False, "yanchor": "bottom",
+                "font": {"size": 10, "color": AMBER},
+            }],
+            showlegend=False,
+        ),
+    }
+
+
+def ridge_trace(diagnosis: dict) -> Figure | None:
+    """Ridge coefficients along the penalty grid, each divided by its largest size on the
+    path so columns of any unit share one axis; the chosen penalty is marked."""
+    ridge = diagnosis.get("ridge")
+    if not ridge or not ridge.get("columns"):
+        return None
+    pens = list(ridge["penalties"])
+    # λ = 0 has no place on a log axis: it is shown at a tenth of the smallest positive λ.
+    positive = [x for x in pens if x > 0]
+    zero_at = (min(positive) / 10) if positive else 1e-5
+    xs = [x if x > 0 else zero_at for x in pens]
+    traces = []
+    palette = [TEAL, BRICK, AMBER, INK, TEAL_LIGHT, "#6d5a8f", "#4b7f3a", "#8f5a3c"]
+    for i, col in enumerate(ridge["columns"]):
+        path = ridge["coefficients"][col]
+        big = max((abs(v) for v in path), default=0.0)
+        ys = [v / big if big > 0 else 0.0 for v in path]
+        traces.append({
+            "type": "scatter", "mode": "lines", "x": xs, "y": ys, "name": col,
+            "line": {"color": palette[i % len(palette)], "width": 1.6},
+            "customdata": path,
+            "hovertemplate": f"{col}<br>penalty %{{x:.3g}}<br>coefficient %{{customdata:.4g}}"
+                             "<extra></extra>",
+        })
+    shapes = []
+    chosen = ridge.get("chosen")
+    if chosen is not None:
+        at = chosen["penalty"] if chosen["penalty"] > 0 else zero_at
+        shapes.append({"type": "line", "xref": "x", "yref": "paper", "x0": at, "x1": at,
+                       "y0": 0, "y1": 1, "line": {"color": INK, "dash": "dash", "width": 1}})
+    return {
+        "data": traces,
+        "layout": _layout(
+            "Ridge path: each coefficient over its largest size",
+            xaxis=_axis("penalty λ (log scale; the left end is λ = 0)", type="log"),
+            yaxis=_axis("coefficient ÷ its largest size", range=[-1.05, 1.05]),
+            shapes=shapes,
+            height=380,
+            legend={"font": {"size": 10}},
+        ),
+    }
+
+
+def all_figures(diagnosis: dict) -> dict[str, Figure | None]:
+    """Every figure the inspection view draws, by the id of its slot on the page."""
+    return {
+        "heatmap-pearson": correlation_heatmap(diagnosis, "pearson"),
+        "heatmap-spearman": correlation_heatmap(diagnosis, "spearman"),
+        "spectrum": singular_value_spectrum(diagnosis),
+        "inflation": inflation_bars(diagnosis),
+        "ridge": ridge_trace(diagnosis),
+    }

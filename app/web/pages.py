@@ -1,0 +1,74 @@
+"""Page routes: the upload page, a table's overview, the inspection view and its fragments.
+
+Renders core results through render.py; no linear algebra and no state changes here.
+"""
+
+from __future__ import annotations
+
+from fastapi import APIRouter, Request
+from fastapi.responses import HTMLResponse
+
+from app.tables import sniff
+from app.tables.errors import InputError
+from app.web.overview import summarize
+from app.web.render import compare_context, render, workspace_html
+from app.web.workbench import Workbench
+
+router = APIRouter()
+
+
+def bench_of(request: Request) -> Workbench:
+    return request.app.state.bench
+
+
+def message_page(text: str, status: int) -> HTMLResponse:
+    return HTMLResponse(render("message.html", message=text, status=status), status_code=status)
+
+
+@router.get("/", response_class=HTMLResponse)
+def upload_page(request: Request) -> HTMLResponse:
+    bench = bench_of(request)
+    open_sessions = [bench.store.get(i) for i in bench.store.ids()]
+    exts = sorted(e for e in sniff.TEXT_EXTS | sniff.EXCEL_EXTS | sniff.PARQUET_EXTS if e)
+    return HTMLResponse(render("upload.html", sessions=[s for s in open_sessions if s],
+                               accept=",".join([*exts, ".gz"]), supported=sniff.SUPPORTED))
+
+
+@router.get("/s/{session_id}", response_class=HTMLResponse)
+def overview_page(request: Request, session_id: str) -> HTMLResponse:
+    bench = bench_of(request)
+    session = bench.session(session_id)
+    analysis, problem = None, None
+    try:
+        analysis = bench.current(session)
+    except InputError as e:
+        problem = e.message
+    used_as = {w.name: w for w in analysis.working} if analysis else {}
+    return HTMLResponse(render(
+        "overview.html", session=session, summaries=summarize(session.table),
+        analysis=analysis, used_as=used_as, problem=problem,
+    ))
+
+
+@router.get("/s/{session_id}/inspect", response_class=HTMLResponse)
+def inspect_page(request: Request, session_id: str) -> HTMLResponse:
+    bench = bench_of(request)
+    session = bench.session(session_id)
+    analysis = bench.current(session)
+    return HTMLResponse(render("inspect.html", session=session,
+                               workspace=workspace_html(bench, session, analysis)))
+
+
+@router.get("/s/{session_id}/workspace", response_class=HTMLResponse)
+def workspace_fragment(request: Request, session_id: str) -> HTMLResponse:
+    bench = bench_of(request)
+    session = bench.session(session_id)
+    return HTMLResponse(workspace_html(bench, session, bench.current(session)))
+
+
+@router.get("/s/{session_id}/compare", response_class=HTMLResponse)
+def compare_fragment(request: Request, session_id: str, a: str = "previous",
+                     b: str = "current") -> HTMLResponse:
+    bench = bench_of(request)
+    session = bench.session(session_id)
+    return HTMLResponse(render("compare.html", cmp=compare_context(bench, session, a, b)))

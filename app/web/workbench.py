@@ -1,0 +1,268 @@
+"""Turning a session into an Analysis: replay the recipe, diagnose, remember recent results.
+
+Calls the recipe and the core only; never does linear algebra itself, never renders.
+"""
+
+from __future__ import annotations
+
+import json
+import math
+import threading
+import time
+from collections import OrderedDict
+from dataclasses import dataclass, replace
+from typing import Any
+
+from app.core import diagnose
+from app.design.apply_roles import levels_of
+from app.design.bench import DROPPED, PREDICTOR, RESPONSE
+from app.design.design import INTERCEPT, Design
+from app.design.names import quoted
+from app.design.recipe import Recipe
+from app.design.replay import trace_design
+from app.design.steps import describe_step
+from app.tables.errors import InputError
+from app.tables.table import Table
+from app.web.state import Change, PinnedFit, Session, SessionStore
+
+#: Categorical columns with more levels than this get no level chooser (a free-text
+#: field instead): a menu of thousands of levels helps nobody.
+LEVEL_MENU_LIMIT = 60
+
+
+class UnknownSession(KeyError):
+    """No session with this id is open (sessions end when the server stops)."""
+
+
+@dataclass(frozen=True)
+class Settings:
+    """What the changes in force add up to: recipe steps, basis priority, ridge penalty."""
+
+    steps: tuple[str, ...]  # each step as canonical JSON, so Settings is hashable
+    keep: tuple[str, ...]
+    ridge: float | None
+
+    @property
+    def recipe(self) -> Recipe:
+        return Recipe([json.loads(s) for s in self.steps])
+
+
+@dataclass(frozen=True)
+class WorkingColumn:
+    """A column of the recipe's workbench as the controls need it."""
+
+    name: str
+    kind: str
+    role: str  # predictor | dropped | response
+    reference: str | None
+    levels: list[str] | None  # categorical only, None when there are too many to list
+
+
+@dataclass(frozen=True)
+class Analysis:
+    """One diagnosed state of a session: the design's summary, the diagnosis as a dict,
+    the workbench columns, and how long the build and diagnosis took (seconds)."""
+
+    settings: Settings
+    columns: list[str]
+    response: str | None
+    groups: dict[str, list[str]]
+    rows_total: int
+    rows_used: int
+    notes: list[str]
+    diagnosis: dict[str, Any]
+    working: list[WorkingColumn]
+    seconds: float
+
+    @property
+    def has_intercept(self) -> bool:
+        return INTERCEPT in self.columns
+
+
+def settings_of(changes: list[Change]) -> Settings:
+    """Fold the history entries in force into Settings."""
+    steps: list[str] = []
+    keep: list[str] = []
+    ridge: float | None = None
+    for change in changes:
+        if change.kind == "step":
+            steps.append(json.dumps(change.payload, sort_keys=True))
+        elif change.kind == "keep":
+            col = change.payload["column"]
+            # "Keep this one instead": the column goes to the front of the priority list.
+            keep = [col] + [c for c in keep if c != col]
+        elif change.kind == "ridge":
+            ridge = change.payload["penalty"]
+    return Settings(tuple(steps), tuple(keep), ridge)
+
+
+def describe_change(change: Change) -> str:
+    """A sentence for the history list."""
+    if change.kind == "step":
+        return describe_step(change.payload)
+    if change.kind == "keep":
+        return (f"Keep {quoted(change.payload['column'])} in the basis first, so the "
+                "others are written in terms of it.")
+    penalty = change.payload["penalty"]
+    if penalty is None:
+        return "Turn the ridge penalty off."
+    return f"Set the ridge penalty to {penalty:g}."
+
+
+def check_change(change: Change) -> Change:
+    """Refuse a malformed change before it reaches the history (steps are checked by the
+    recipe itself when the Recipe is built)."""
+    if change.kind == "step":
+        Recipe([change.payload])  # raises InputError naming the bad field
+        return change
+    if change.kind == "keep":
+        col = change.payload.get("column")
+        if not isinstance(col, str) or not col:
+            raise InputError("a basis choice needs a column name", "", "Pick a column")
+        return Change("keep", {"column": col})
+    if change.kind == "ridge":
+        value = change.payload.get("penalty")
+        if value is None:
+            return Change("ridge", {"penalty": None})
+        if isinstance(value, bool) or not isinstance(value, int | float):
+            raise InputError(f"a ridge penalty must be a number, not {value!r}", "ridge penalty",
+                             "Enter a number of 0 or more, or clear the field")
+        if not math.isfinite(value) or value < 0:
+            raise InputError(f"a ridge penalty must be 0 or more, not {value!r}", "ridge penalty",
+                             "Enter a number of 0 or more (in units of the correlation matrix)")
+        return Change("ridge", {"penalty": float(value)})
+    raise InputError(f"unknown kind of change {change.kind!r}", "", "Use step, keep or ridge")
+
+
+def _working(bench_cols: list[Any]) -> list[WorkingColumn]:
+    out = []
+    for col in bench_cols:
+        levels = None
+        if col.kind == "categorical":
+            levels = levels_of(col)
+            if len(levels) > LEVEL_MENU_LIMIT:
+                levels = None
+        role = {PREDICTOR: "predictor", DROPPED: "dropped", RESPONSE: "response"}[col.role]
+        out.append(WorkingColumn(col.name, col.kind, role, col.reference, levels))
+    return out
+
+
+def analyse(table: Table, settings: Settings) -> Analysis:
+    """Replay the recipe on the table and diagnose the design. Raises InputError."""
+    start = time.perf_counter()
+    trace = trace_design(table, list(settings.recipe))
+    design: Design = trace.design
+    # Kept columns that a later step removed are simply passed over by the core.
+    diag = diagnose(
+        design.X, design.columns, design.y, response=design.response, groups=design.groups,
+        keep=list(settings.keep) or None, ridge_penalty=settings.ridge,
+    )
+    return Analysis(
+        settings=settings,
+        columns=list(design.columns),
+        response=design.response,
+        groups=dict(design.groups),
+        rows_total=design.rows_total,
+        rows_used=design.rows_used,
+        notes=list(design.notes),
+        diagnosis=diag.to_dict(),
+        working=_working(trace.bench.cols),
+        seconds=time.perf_counter() - start,
+    )
+
+
+class Workbench:
+    """The analysis side of the web app: sessions in a store, recent analyses in memory.
+
+    Every change is tried on a copy of the session first; only a change whose analysis
+    succeeds is stored, so a failing step never touches what the session holds.
+    """
+
+    def __init__(self, store: SessionStore, cache_size: int = 12) -> None:
+        self.store = store
+        self._cache: OrderedDict[tuple[str, int, Settings], Analysis] = OrderedDict()
+        self._cache_size = cache_size
+        self._guard = threading.Lock()
+
+    def session(self, session_id: str) -> Session:
+        s = self.store.get(session_id)
+        if s is None:
+            raise UnknownSession(session_id)
+        return s
+
+    def analysis_at(self, session: Session, position: int) -> Analysis:
+        """The analysis of the first `position` changes of the history (cached)."""
+        settings = settings_of(session.history[:position])
+        key = (session.session_id, id(session.table), settings)
+        with self._guard:
+            hit = self._cache.get(key)
+            if hit is not None:
+                self._cache.move_to_end(key)
+                return hit
+        result = analyse(session.table, settings)
+        with self._guard:
+            self._cache[key] = result
+            while len(self._cache) > self._cache_size:
+                self._cache.popitem(last=False)
+        return result
+
+    def current(self, session: Session) -> Analysis:
+        return self.analysis_at(session, session.position)
+
+    def start(self, table: Table) -> Session:
+        """A new session on a table; the recipe starts empty (the user picks the response)."""
+        return self.store.create(table)
+
+    def apply(self, session_id: str, change: Change) -> Analysis:
+        """Add a change at the undo pointer; store it only if the analysis succeeds."""
+        change = check_change(change)
+        with self.store.lock(session_id):
+            session = self.session(session_id)
+            if change.kind == "keep":
+                column = change.payload["column"]
+                if column not in self.current(session).columns:
+                    raise InputError(
+                        f"{quoted(column)} is not a column of the design, so it cannot be "
+                        "kept first", "basis choice", "Choose a column the design has")
+            candidate = session.with_change(change)
+            result = self.current(candidate)
+            self.store.put(candidate)
+            return result
+
+    def pin(self, session_id: str, label: str = "") -> PinnedFit:
+        """Keep the current fit for comparison."""
+        with self.store.lock(session_id):
+            session = self.session(session_id)
+            result = self.current(session)
+            fit = result.diagnosis.get("fit")
+            if fit is None:
+                raise InputError("there is no fit to pin yet", "fit",
+                                 "Choose a response column first")
+            pin_id = max((p.pin_id for p in session.pinned), default=0) + 1
+            label = label.strip() or f"Fit {pin_id}: after {session.position} change(s)"
+            pinned = PinnedFit(pin_id, label[:80], session.position, fit, result.columns,
+                               int(result.diagnosis["rank"]), time.time())
+            session.pinned = [*session.pinned, pinned]
+            self.store.put(session)
+            return pinned
+
+    def unpin(self, session_id: str, pin_id: int) -> None:
+        with self.store.lock(session_id):
+            session = self.session(session_id)
+            if not any(p.pin_id == pin_id for p in session.pinned):
+                raise InputError(f"there is no pinned fit number {pin_id}", "pinned fits")
+            session.pinned = [p for p in session.pinned if p.pin_id != pin_id]
+            self.store.put(session)
+
+    def move(self, session_id: str, delta: int) -> Analysis:
+        """Undo (delta −1) or redo (+1); stored only once the state there is analysed."""
+        with self.store.lock(session_id):
+            session = self.session(session_id)
+            target = session.position + delta
+            if not 0 <= target <= len(session.history):
+                word = "undo" if delta < 0 else "redo"
+                raise InputError(f"there is nothing to {word}", "history")
+            candidate = replace(session, position=target)
+            result = self.current(candidate)
+            self.store.put(candidate)
+            return result
