@@ -1,0 +1,134 @@
+"""The HTML report: one self-contained page (plotly.js inlined) of a diagnosis and its fit.
+
+Renders finished results only; opens offline, fetches nothing, computes nothing.
+"""
+
+from __future__ import annotations
+
+import json
+import re
+import time
+from collections.abc import Sequence
+from functools import lru_cache
+
+from plotly.offline import get_plotlyjs
+
+from app.design.recipe import Recipe
+from app.design.steps import describe_step
+from app.report import html_sections as sec
+from app.report.figures import BRICK, GRID, INK, PAPER, TEAL, all_figures
+
+#: Which figures the report draws, by the id of the chart slot they fill.
+CHARTS = ("spectrum", "inflation", "correlation", "ridge")
+
+STYLE = f"""
+body {{ margin: 0 auto; max-width: 68rem; padding: 1.5rem; background: {PAPER}; color: {INK};
+  font: 15px/1.5 system-ui, -apple-system, 'Segoe UI', sans-serif; }}
+h1 {{ font-size: 1.5rem; margin: 0 0 .25rem; }}
+h2 {{ font-size: 1.15rem; border-bottom: 2px solid {TEAL}; padding-bottom: .2rem;
+  margin-top: 2rem; }}
+.meta {{ color: #55626b; margin: 0; }}
+table {{ border-collapse: collapse; margin: .75rem 0; font-variant-numeric: tabular-nums; }}
+caption {{ text-align: left; font-size: .85rem; color: #55626b; padding-bottom: .25rem; }}
+th, td {{ padding: .2rem .6rem; border-bottom: 1px solid {GRID}; text-align: left; }}
+th {{ font-weight: 600; }}
+.num {{ text-align: right; }}
+td.mark {{ background: #f6dfd9; color: {BRICK}; font-weight: 600; }}
+.wide {{ overflow-x: auto; }}
+ol.equations li {{ margin: .4rem 0; }}
+code.equation {{ font-size: 1.05rem; background: #eef5f5; padding: .1rem .4rem; }}
+.aside {{ color: #55626b; font-size: .85rem; margin-left: .75rem; }}
+.chart {{ width: 100%; min-height: 260px; }}
+@media print {{ .chart {{ break-inside: avoid; }} }}
+"""
+
+
+@lru_cache(maxsize=1)
+def plotly_bundle() -> str:
+    """plotly.min.js from the installed plotly package, safe inside a <script> element."""
+    return _script_safe(get_plotlyjs())
+
+
+def _script_safe(code: str) -> str:
+    # Only "</script" can end a script element early; "<\/" means the same in JavaScript.
+    return re.sub(r"</(script)", r"<\\/\1", code, flags=re.IGNORECASE)
+
+
+def _figures_js(diagnosis: dict, heatmap: str) -> tuple[str, set[str]]:
+    """The script that draws the charts, and the ids of the charts it draws."""
+    figs = all_figures(diagnosis)
+    chosen = {
+        "spectrum": figs["spectrum"],
+        "inflation": figs["inflation"],
+        "correlation": figs.get(f"heatmap-{heatmap}") or figs["heatmap-pearson"],
+        "ridge": figs["ridge"],
+    }
+    shown = {k: v for k, v in chosen.items() if v is not None}
+    # A JavaScript literal, not JSON: NaN stays NaN. "<", ">" and "&" are escaped so that no
+    # column name can close the script element.
+    text = json.dumps(shown, ensure_ascii=False)
+    text = text.replace("<", "\\u003c").replace(">", "\\u003e").replace("&", "\\u0026")
+    return (f"const FIGURES = {text};\n"
+            "for (const [key, fig] of Object.entries(FIGURES)) {\n"
+            "  const slot = document.getElementById('chart-' + key);\n"
+            "  if (slot) Plotly.newPlot(slot, fig.data, fig.layout,\n"
+            "                           {displaylogo: false, responsive: true});\n"
+            "}\n"), set(shown)
+
+
+def render_html(
+    diagnosis: dict,
+    *,
+    title: str,
+    source: str | None = None,
+    rows: tuple[int, int] | None = None,
+    recipe: Recipe | None = None,
+    notes: Sequence[str] = (),
+    heatmap: str = "pearson",
+    made_at: float | None = None,
+) -> str:
+    """The report page: exact dependencies first, then rank and condition numbers, the index
+    and share table, VIF, the fit, the cautions, the recipe and the notes.
+
+    diagnosis: Diagnosis.to_dict(); rows: (rows used, rows in the table); recipe: listed as
+    sentences; notes: what the reader and the recipe said (Table.notes, Design.notes);
+    heatmap: "pearson" or "spearman".
+    """
+    d = diagnosis
+    script, shown = _figures_js(d, heatmap)
+    when = time.strftime("%Y-%m-%d %H:%M", time.localtime(made_at or time.time()))
+    meta = [f"Made by rankscope on {when}"]
+    if source:
+        meta.insert(0, f"Table: {source}")
+    if rows is not None:
+        meta.append(f"rows used: {rows[0]:,} of {rows[1]:,}")
+    resp = d.get("response")
+    meta.append(f"{len(d['columns'])} design columns, "
+                + (f"response {resp}" if resp else "no response"))
+    charts_for = {"correlation": "Correlations of the non-constant columns",
+                  "ridge": "Ridge path"}
+    extra = [sec.section(k, t, sec.chart(k)) for k, t in charts_for.items() if k in shown]
+    all_notes = [*notes, *d.get("notes", [])]
+    steps = [describe_step(s) for s in recipe] if recipe is not None else []
+    body = [
+        f"<header><h1>{sec.esc(title)}</h1>"
+        + "".join(f'<p class="meta">{sec.esc(m)}</p>' for m in meta) + "</header>",
+        sec.dependencies(d),
+        sec.conditioning(d),
+        sec.index_table(d),
+        sec.inflation(d),
+        sec.fit(d),
+        *extra,
+        sec.cautions(d),
+        sec.listing("recipe", "How the design was made", steps or
+                    ["The table's columns as read, with no changes."], ordered=bool(steps)),
+        sec.listing("notes", "Notes", all_notes),
+    ]
+    return "".join([
+        "<!DOCTYPE html>\n<html lang=\"en\"><head><meta charset=\"utf-8\">",
+        '<meta name="viewport" content="width=device-width, initial-scale=1">',
+        f"<title>{sec.esc(title)}</title><style>{STYLE}</style>",
+        f"<script>{plotly_bundle()}</script></head>\n<body>",
+        *body,
+        f"<script>{_script_safe(script)}</script></body></html>\n",
+    ])

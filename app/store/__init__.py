@@ -1,0 +1,24 @@
+"""Sessions that last: the SQLite session store, its records, and the change model.
+
+Persistence only; analysis and web pages live elsewhere and call in here.
+"""
+
+from app.store.check import Check, replay_check
+from app.store.history import EDIT_KINDS, KINDS, MOVE_KINDS, Change, Folded, fold
+from app.store.records import (
+    Applied,
+    Conflict,
+    Created,
+    Entry,
+    Pin,
+    SessionInfo,
+    SessionNotFound,
+    SessionState,
+)
+from app.store.store import Store, default_root
+
+__all__ = [
+    "Applied", "Change", "Check", "Conflict", "Created", "EDIT_KINDS", "Entry", "Folded",
+    "KINDS", "MOVE_KINDS", "Pin", "SessionInfo", "SessionNotFound", "SessionState", "Store",
+    "default_root", "fold", "replay_check",
+]

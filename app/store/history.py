@@ -1,0 +1,158 @@
+"""Changes to a session and how the history folds into what is in force (undo/redo included).
+
+Shape checks and bookkeeping only: whether a step builds on the table is checked elsewhere.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import json
+import math
+import secrets
+from dataclasses import dataclass, field
+from typing import Any
+
+from app.design.recipe import Recipe
+from app.design.steps import validate_step
+from app.store.records import Entry
+from app.tables.errors import InputError
+
+#: Changes that edit the state; keep and ridge ride in the history so undo walks them too.
+EDIT_KINDS = ("step", "keep", "ridge")
+#: Changes that move through the edits already made.
+MOVE_KINDS = ("undo", "redo")
+KINDS = EDIT_KINDS + MOVE_KINDS
+
+#: Longest change id, author and payload accepted: enough for any real step, and a bound
+#: on what one request can make the database hold.
+MAX_ID = 100
+MAX_AUTHOR = 100
+MAX_PAYLOAD = 64_000
+
+
+@dataclass(frozen=True)
+class Change:
+    """A change a client asks for. change_id makes retries safe: a change whose id was
+    already accepted is not applied again. Without one the store makes up an id, and a
+    retry is then a new change."""
+
+    kind: str
+    payload: dict[str, Any] = field(default_factory=dict)
+    change_id: str | None = None
+    author: str = ""
+
+
+def canonical(value: Any) -> str:
+    """JSON with sorted keys and no NaN: equal values give equal text."""
+    return json.dumps(value, sort_keys=True, ensure_ascii=False, allow_nan=False,
+                      separators=(",", ":"))
+
+
+def fingerprint(change: Change) -> str:
+    """What a retry must repeat exactly for its id to count as the same change."""
+    return hashlib.sha256(canonical([change.kind, change.payload]).encode()).hexdigest()
+
+
+def _payload(kind: str, payload: Any) -> dict[str, Any]:
+    where = f"{kind} change"
+    if not isinstance(payload, dict):
+        raise InputError(f"the payload must be an object, not {type(payload).__name__}", where)
+    if kind == "step":
+        return validate_step(payload)
+    if kind == "keep":
+        col = payload.get("column")
+        if set(payload) != {"column"} or not isinstance(col, str) or not col.strip():
+            raise InputError("a basis choice is {\"column\": name}", where, "Name one column")
+        return {"column": col}
+    if kind == "ridge":
+        value = payload.get("penalty")
+        if set(payload) != {"penalty"}:
+            raise InputError('a ridge change is {"penalty": number or null}', where)
+        if value is None:
+            return {"penalty": None}
+        if isinstance(value, bool) or not isinstance(value, int | float) \
+                or not math.isfinite(value) or value < 0:
+            raise InputError(f"a ridge penalty must be a number of 0 or more, not {value!r}",
+                             where, "Give a number of 0 or more, or null to turn it off")
+        return {"penalty": float(value)}
+    if payload:
+        raise InputError(f"{kind} takes no payload", where, "Send an empty object")
+    return {}
+
+
+def checked(change: Change) -> Change:
+    """The change with its payload checked and normalized, and an id. Raises InputError."""
+    if change.kind not in KINDS:
+        raise InputError(f"unknown kind of change {change.kind!r}", "change",
+                         "Use one of: " + ", ".join(KINDS))
+    cid = change.change_id if change.change_id is not None else secrets.token_urlsafe(12)
+    if not isinstance(cid, str) or not cid or len(cid) > MAX_ID:
+        raise InputError(f"a change id is text of 1 to {MAX_ID} characters", "change id")
+    author = change.author or ""
+    if not isinstance(author, str) or len(author) > MAX_AUTHOR:
+        raise InputError(f"an author is text of at most {MAX_AUTHOR} characters", "author")
+    payload = _payload(change.kind, change.payload)
+    try:
+        size = len(canonical(payload).encode())
+    except (TypeError, ValueError) as e:
+        raise InputError(f"the payload is not plain JSON ({e})", f"{change.kind} change") from e
+    if size > MAX_PAYLOAD:
+        raise InputError(f"the payload is {size:,} bytes, over {MAX_PAYLOAD:,}",
+                         f"{change.kind} change", "Send a smaller change")
+    return Change(change.kind, payload, cid, author)
+
+
+@dataclass(frozen=True)
+class Folded:
+    """What a history adds up to: the edits in force (oldest first) and the undone ones
+    that redo would bring back (next first)."""
+
+    in_force: tuple[Entry, ...] = ()
+    undone: tuple[Entry, ...] = ()
+
+    @property
+    def steps(self) -> list[dict[str, Any]]:
+        return [e.payload for e in self.in_force if e.kind == "step"]
+
+    @property
+    def recipe(self) -> Recipe:
+        return Recipe(self.steps)
+
+    @property
+    def keep(self) -> list[str]:
+        """Basis priority: the latest "keep this one" first, as a person would expect."""
+        keep: list[str] = []
+        for e in self.in_force:
+            if e.kind == "keep":
+                col = e.payload["column"]
+                keep = [col] + [c for c in keep if c != col]
+        return keep
+
+    @property
+    def ridge(self) -> float | None:
+        values = [e.payload["penalty"] for e in self.in_force if e.kind == "ridge"]
+        return values[-1] if values else None
+
+
+def fold(entries: list[Entry]) -> Folded:
+    """Replay the history: an edit goes in force and clears what could be redone; undo
+    takes back the latest edit in force; redo brings back the latest one undone."""
+    in_force: list[Entry] = []
+    undone: list[Entry] = []
+    for e in entries:
+        if e.kind in EDIT_KINDS:
+            in_force.append(e)
+            undone.clear()
+        elif e.kind == "undo":
+            undone.append(in_force.pop())
+        else:
+            in_force.append(undone.pop())
+    return Folded(tuple(in_force), tuple(reversed(undone)))
+
+
+def move_payload(kind: str, state: Folded) -> dict[str, Any] | None:
+    """What an undo or redo records (the version it takes back or brings back), or None
+    when there is nothing to undo or redo."""
+    if kind == "undo":
+        return {"undoes": state.in_force[-1].version} if state.in_force else None
+    return {"redoes": state.undone[0].version} if state.undone else None
