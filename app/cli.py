@@ -260,6 +260,10 @@ def json_ready(obj: Any) -> Any:
 
 
 def run_check(args: argparse.Namespace) -> int:
+    if getattr(args, "stream", False):
+        from app.scale.stream import stream_check
+
+        return stream_check(args)
     rules = [parse_rule(t) for t in args.fail_if]
     if args.tol is not None and not (math.isfinite(args.tol) and args.tol > 0):
         raise InputError(f"the tolerance must be a positive number, not {args.tol}", "--tol")
@@ -351,6 +355,9 @@ def build_parser() -> Parser:
                        help="absolute rank tolerance on the singular values of the unit-length "
                             "columns (default: σ_max·max(n, p)·eps)")
     check.add_argument("--json", action="store_true", help="print the diagnosis as JSON")
+    check.add_argument("--stream", action="store_true",
+                       help="read FILE block by block (CSV/TSV, .gz or Parquet larger than "
+                            "memory); progress on stderr")
     check.add_argument("--fail-if", metavar="RULE", action="append", default=[],
                        help="exit with code 1 when RULE is crossed (see below; repeatable)")
     check.set_defaults(run=run_check)

@@ -1,0 +1,9 @@
+"""Factor once, edit instantly: recipe steps applied to the small triangular factor.
+
+Imports core, design and tables; reads rows only when it factors or falls back to a rebuild.
+"""
+
+from app.scale.edits import EditEngine, Outcome
+from app.scale.ledger import Layout, Rebuild
+
+__all__ = ["EditEngine", "Layout", "Outcome", "Rebuild"]

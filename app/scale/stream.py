@@ -1,0 +1,218 @@
+"""Analysis of a file too big for memory: the recipe run block by block into one small factor.
+
+Holds one block of rows at a time; statistics over all kept rows come from the factor, never
+from a block. The CLI's `check --stream` calls stream_check.
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import sys
+import threading
+import time
+from collections.abc import Callable
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import TextIO
+
+import numpy as np
+
+from app.core.factor import Factorization
+from app.design.design import Design
+from app.design.recipe import Recipe
+from app.scale.stream_finish import Layout, finish, learn
+from app.scale.stream_forms import Frozen
+from app.scale.stream_partial import Partial
+from app.scale.stream_replay import Replay
+from app.scale.stream_source import Retype, Source, open_source
+from app.tables.errors import InputError
+
+#: Rows per block: small enough for bounded memory, large enough that Python's per-block
+#: work is a small share of the time.
+BLOCK_ROWS = 100_000
+
+Progress = Callable[[int, int, int], None]
+
+
+class Cancelled(Exception):
+    """The caller set the cancel event; the stream stopped between two blocks."""
+
+
+@dataclass
+class StreamInfo:
+    """What the streamed design is, with the facts build_design and read_table would report."""
+
+    source: str
+    kinds: dict[str, str]
+    layout: Layout
+    table_notes: list[str] = field(default_factory=list)
+    passes: int = 1
+    blocks: int = 0
+    bytes_total: int = 0
+    seconds: float = 0.0
+
+    @property
+    def columns(self) -> list[str]:
+        return self.layout.columns
+
+    @property
+    def response(self) -> str | None:
+        return self.layout.response
+
+    @property
+    def groups(self) -> dict[str, list[str]]:
+        return self.layout.groups
+
+    def design(self) -> Design:
+        """A Design with the streamed design's names and counts and no rows (X has 0 rows),
+        for reports that describe a design without reading it."""
+        lay = self.layout
+        return Design(X=np.zeros((0, len(lay.columns))), columns=list(lay.columns),
+                      response=lay.response, groups=dict(lay.groups),
+                      rows_total=lay.rows_total, rows_used=lay.rows_used,
+                      dropped_by=dict(lay.dropped_by), notes=list(lay.notes))
+
+
+def _as_recipe(recipe: Recipe | list | None) -> Recipe:
+    if recipe is None:
+        return Recipe()
+    return recipe if isinstance(recipe, Recipe) else Recipe(recipe)
+
+
+def stream_factor(path: str | Path, recipe: Recipe | list | None = None, *,
+                  block_rows: int = BLOCK_ROWS, progress: Progress | None = None,
+                  cancel: threading.Event | None = None, kinds: dict[str, str] | None = None,
+                  name: str | None = None) -> tuple[Factorization, StreamInfo]:
+    """The Factorization of the design build_design(read_table(path), recipe) would give,
+    reading the file (CSV/TSV, optionally .gz, or Parquet) one block of rows at a time.
+
+    progress(rows_done, bytes_done, bytes_total) is called after each block; when a recipe
+    needs a statistic before a row-wise step (center, then square), the file is read again
+    and bytes_total counts every pass. cancel: checked between blocks; raises Cancelled.
+    Raises InputError for anything a user can fix, as read_table and build_design do.
+    """
+    if block_rows < 1:
+        raise ValueError("block_rows must be positive")
+    source = open_source(path, name=name, kinds=kinds)
+    return stream_source(source, _as_recipe(recipe), block_rows=block_rows,
+                         progress=progress, cancel=cancel)
+
+
+def stream_source(source: Source, recipe: Recipe, *, block_rows: int = BLOCK_ROWS,
+                  progress: Progress | None = None, cancel: threading.Event | None = None
+                  ) -> tuple[Factorization, StreamInfo]:
+    """stream_factor on a Source already opened (its kinds decide the recipe's defaults)."""
+    started = time.monotonic()
+    steps = recipe.steps
+    frozen: dict[int, Frozen] = {}
+    passes = 0
+    # Each pass learns the statistics of one more level of statistic-before-row-wise steps.
+    for _ in range(len(steps) + 3):
+        passes += 1
+        while True:
+            try:
+                part = _one_pass(source, steps, frozen, block_rows, progress, cancel, passes)
+                break
+            except Retype as r:
+                # A column read as numbers holds text further down: the readers' text rules
+                # decide it (or refuse it with its row), from the first row again.
+                source.as_text.add(r.column)
+        todo = part.shape.wants - frozen.keys()
+        if not todo:
+            F, layout = finish(part, source.where)
+            info = StreamInfo(source=source.where, kinds=dict(source.kinds), layout=layout,
+                              table_notes=list(source.notes), passes=passes,
+                              blocks=part.blocks, bytes_total=source.bytes_total,
+                              seconds=time.monotonic() - started)
+            return F, info
+        frozen.update(learn(part))
+    raise AssertionError("the recipe's statistics did not settle")
+
+
+def _one_pass(source: Source, steps: list[dict], frozen: dict[int, Frozen], block_rows: int,
+              progress: Progress | None, cancel: threading.Event | None, number: int
+              ) -> Partial:
+    replay = Replay(steps, frozen)
+    total: Partial | None = None
+    planned = number
+    for block in source.blocks(block_rows):
+        if cancel is not None and cancel.is_set():
+            raise Cancelled(f"stopped at row {block.start + 1:,} of {source.where}")
+        part = replay.run(block.table, block.start)
+        if total is None:
+            total = part
+            # The first block shows whether another pass will follow (statistics wanted).
+            planned = number + (1 if part.shape.wants - frozen.keys() else 0)
+        else:
+            total.absorb(part)
+        if progress is not None:
+            done = source.bytes_total * (number - 1) + block.bytes_done
+            progress(total.rows, done, source.bytes_total * planned)
+    if total is None:
+        raise InputError("The table has a header row but no data rows", source.where,
+                         "Add the data below the header row")
+    return total
+
+
+def stream_check(args: argparse.Namespace, *, out: TextIO | None = None,
+                 err: TextIO | None = None) -> int:
+    """`rankscope check FILE --stream`: run_check's output and exit codes, the file read block
+    by block with a progress bar on stderr."""
+    from app import cli
+    from app.core.diagnosis import diagnose_factor
+    from app.design.names import quoted, suggestion
+    from app.report.cautions import choose_cautions
+    from app.scale.stream_bar import ProgressBar
+
+    out = out or sys.stdout
+    err = err or sys.stderr
+    rules = [cli.parse_rule(t) for t in args.fail_if]
+    if args.tol is not None and not (np.isfinite(args.tol) and args.tol > 0):
+        raise InputError(f"the tolerance must be a positive number, not {args.tol}", "--tol")
+    if getattr(args, "sheet", None):
+        raise InputError("--stream reads CSV/TSV and Parquet files, which have no sheets",
+                         "--sheet", "Leave out --sheet, or leave out --stream for a workbook")
+    source = open_source(args.file)
+    if not args.recipe:
+        cli.check_names(args, source.columns)
+    steps = cli.recipe_steps(args, dict(source.kinds))
+    bar = ProgressBar(err)
+    try:
+        F, info = stream_source(source, Recipe(steps.steps), progress=bar)
+    except InputError as e:
+        raise steps.relabel(e) from e
+    finally:
+        bar.close()
+    for name in args.keep:
+        if name not in info.columns:
+            raise InputError(f"the design has no column named {quoted(name)}", "--keep",
+                             suggestion(name, info.columns))
+    diagnosis = diagnose_factor(F, response=info.response, groups=info.groups,
+                                keep=list(args.keep) or None, tol=args.tol).to_dict()
+    checks = cli.evaluate(rules, diagnosis)
+    design = info.design()
+    if args.json:
+        doc = dict(diagnosis)
+        doc["source"] = info.source
+        doc["design"] = {
+            "rows_total": design.rows_total, "rows_used": design.rows_used,
+            "rows_dropped": design.rows_total - design.rows_used,
+            "dropped_by": dict(design.dropped_by), "response": design.response,
+            "intercept": design.intercept,
+            "groups": {g: list(c) for g, c in design.groups.items()},
+            "notes": list(design.notes) + list(info.table_notes),
+        }
+        doc["cautions"] = [c.to_dict() for c in choose_cautions(diagnosis)]
+        doc["checks"] = checks
+        doc["stream"] = {"passes": info.passes, "blocks": info.blocks,
+                         "bytes": info.bytes_total, "seconds": round(info.seconds, 3)}
+        out.write(json.dumps(cli.json_ready(doc), allow_nan=False, indent=2) + "\n")
+    else:
+        from app.report.text import render_text
+
+        out.write(render_text(diagnosis, design, source=info.source, notes=info.table_notes))
+    crossed = [c for c in checks if c["crossed"]]
+    for c in crossed:
+        print(f"rankscope: --fail-if {c['rule']} crossed: {c['detail']}", file=err)
+    return cli.EXIT_CROSSED if crossed else cli.EXIT_OK

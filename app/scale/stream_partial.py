@@ -1,0 +1,96 @@
+"""What some rows contribute: the triangular factor of [1, held columns] plus counts, mergeable.
+
+Blocks fold into one Partial in file order, or partitions merge in a tree; the order of merging
+changes nothing but rounding. No recipe logic here.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from app.core.reduce import merge
+from app.scale.stream_forms import Key, Shape, Tracker
+
+
+def _aligned(R: np.ndarray, bases: list[Key], union: list[Key]) -> np.ndarray:
+    """R's columns placed at their keys' positions in [1, union]; the others are zero, which
+    is exact: a column first seen later was zero (absent) in these rows."""
+    if bases == union:
+        return R
+    out = np.zeros((R.shape[0], 1 + len(union)))
+    out[:, 0] = R[:, 0]
+    at = {k: i for i, k in enumerate(union)}
+    out[:, [1 + at[k] for k in bases]] = R[:, 1:]
+    return out
+
+
+def _add(a: dict, b: dict) -> dict:
+    out = dict(a)
+    for k, v in b.items():
+        out[k] = out.get(k, 0) + v
+    return out
+
+
+@dataclass
+class Partial:
+    """The contribution of some rows.
+
+    R: triangular factor with RᵀR = MᵀM, M = [1, bases] over the kept rows (None: no row kept).
+    rows / kept: rows read and rows kept after listwise deletion.
+    dropped_by: table column -> rows deleted because of it (first missing in table order).
+    missing_in: drop_column candidates -> rows where one of their sources is missing.
+    levels: categorical design columns -> level -> kept rows with it.
+    ind_levels: indicators steps -> levels present on any row (the recipe checks all rows).
+    seen_all / seen_kept: statistic steps -> their inputs' present rows and ranges.
+    """
+
+    shape: Shape
+    bases: list[Key]
+    R: np.ndarray | None
+    rows: int
+    kept: int
+    dropped_by: dict[str, int] = field(default_factory=dict)
+    missing_in: dict[Key, int] = field(default_factory=dict)
+    levels: dict[Key, dict[str, int]] = field(default_factory=dict)
+    ind_levels: dict[int, set[str]] = field(default_factory=dict)
+    seen_all: dict[int, Tracker] = field(default_factory=dict)
+    seen_kept: dict[int, Tracker] = field(default_factory=dict)
+    blocks: int = 1
+
+    @classmethod
+    def from_block(cls, shape: Shape, columns: dict[Key, np.ndarray], *, rows: int, kept: int,
+                   **counts) -> Partial:
+        bases = list(columns)
+        R = None
+        if kept:
+            M = np.column_stack([np.ones(kept), *columns.values()])
+            R = merge(None, M)
+        return cls(shape, bases, R, rows, kept, **counts)
+
+    def absorb(self, other: Partial) -> Partial:
+        """This Partial with other's rows added (self is updated and returned)."""
+        if other.shape.entries != self.shape.entries or other.shape.forms != self.shape.forms:
+            raise AssertionError("blocks of one pass gave different recipe structures")
+        union = self.bases + [k for k in other.bases if k not in set(self.bases)]
+        if other.R is not None:
+            theirs = _aligned(other.R, other.bases, union)
+            mine = None if self.R is None else _aligned(self.R, self.bases, union)
+            self.R = merge(mine, theirs)
+        elif self.R is not None:
+            self.R = _aligned(self.R, self.bases, union)
+        self.bases = union
+        self.rows += other.rows
+        self.kept += other.kept
+        self.blocks += other.blocks
+        self.dropped_by = _add(self.dropped_by, other.dropped_by)
+        self.missing_in = _add(self.missing_in, other.missing_in)
+        for k, lv in other.levels.items():
+            self.levels[k] = _add(self.levels.get(k, {}), lv)
+        for pos, lv in other.ind_levels.items():
+            self.ind_levels[pos] = self.ind_levels.get(pos, set()) | lv
+        for mine_, theirs_ in ((self.seen_all, other.seen_all), (self.seen_kept, other.seen_kept)):
+            for pos, tr in theirs_.items():
+                mine_[pos] = mine_[pos].merged(tr) if pos in mine_ else tr
+        return self
