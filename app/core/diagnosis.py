@@ -180,30 +180,31 @@ def diagnose_factor(
     ]
 
     # VIF: centered when the model holds a constant, else uncentered (unit length).
-    involved = set()
-    for r in rels:
+    vif_centered = F.constant_in_span
+    space = cen if vif_centered else R_eq
+    cand = nonconst if vif_centered else list(range(p))
+    label = [names[j] for j in cand]
+    Zall = cnd.unit_columns(space, cand)
+    # Exact dependencies in the space the VIF lives in: those of X, plus any that centering
+    # creates (every level of a categorical without an explicit intercept sums to the
+    # constant). Their columns have infinite VIF; the rest come from the basis columns.
+    rank_of = {j: i for i, j in enumerate(priority_order(names, keep))}
+    inner_order = sorted(range(len(cand)), key=lambda i: rank_of[cand[i]])
+    sv_all = cnd.singular_values(Zall)
+    inner_tol = (tol_c if vif_centered else tol_used) if sv_all.size else 0.0
+    inner = choose_basis(Zall, inner_order, inner_tol)
+    involved: set[str] = set()
+    for r in relations(Zall, inner, label, np.ones(len(cand))):
         involved.add(r.column)
         involved.update(r.combination)
     const_cols = [names[j] for j in range(p) if j not in nonconst]
-    vif: dict[str, float | None] = {}
-    vif_centered = F.constant_in_span
-    if vif_centered:
-        pred = [j for j in nonconst if j in basis.basis and names[j] not in involved]
-        Zp = cnd.unit_columns(cen, pred)
-        label = [names[j] for j in nonconst]
-    else:
-        pred = [j for j in basis.basis if names[j] not in involved]
-        Zp = cnd.unit_columns(R_eq, pred)
-        label = list(names)
-    # Involved columns get infinity; the others are computed on the uninvolved basis
-    # columns plus the involved basis ones (they span the same space as all columns).
-    span_cols = [j for j in (nonconst if vif_centered else range(p)) if j in basis.basis]
-    Zs = cnd.unit_columns(cen if vif_centered else R_eq, span_cols)
+    span_cols = [cand[i] for i in sorted(inner.basis)]
+    Zs = cnd.unit_columns(space, span_cols)
     vals = vif_from_factor(Zs) if span_cols else np.zeros(0)
     by_col = {names[j]: float(vals[i]) for i, j in enumerate(span_cols)}
-    for c in label:
-        vif[c] = None if (c in involved or c not in by_col) else by_col[c]
-    del pred, Zp
+    vif: dict[str, float | None] = {
+        c: None if (c in involved or c not in by_col) else by_col[c] for c in label
+    }
     tolerance = {c: (0.0 if v is None else 1.0 / v) for c, v in vif.items()}
 
     gv: dict[str, dict] = {}

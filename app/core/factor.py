@@ -15,14 +15,27 @@ from app.core.reduce import block_rows, reduce_blocks
 EPS = float(np.finfo(np.float64).eps)
 
 
-def _blocks(X: np.ndarray, y: np.ndarray, sw: np.ndarray):
-    """Yield row blocks of the weighted matrix [sqrt(w), sqrt(w)·X, sqrt(w)·y]."""
+def _blocks(X: np.ndarray, y: np.ndarray, sw: np.ndarray | None):
+    """Yield row blocks of the weighted matrix [sqrt(w), sqrt(w)·X, sqrt(w)·y].
+
+    Each block is written once into a fresh Fortran-order array, the layout LAPACK reduces
+    in place; without weights (sw None) nothing is multiplied.
+    """
     n, p = X.shape
     step = block_rows(p + 2)
     for start in range(0, n, step):
-        sl = slice(start, start + step)
-        w = sw[sl, None]
-        yield np.hstack([w, w * X[sl], w * y[sl, None]])
+        sl = slice(start, min(start + step, n))
+        B = np.empty((sl.stop - sl.start, p + 2), order="F")
+        if sw is None:
+            B[:, 0] = 1.0
+            B[:, 1 : p + 1] = X[sl]
+            B[:, p + 1] = y[sl]
+        else:
+            w = sw[sl]
+            B[:, 0] = w
+            np.multiply(X[sl], w[:, None], out=B[:, 1 : p + 1])
+            np.multiply(y[sl], w, out=B[:, p + 1])
+        yield B
 
 
 @dataclass
@@ -124,12 +137,16 @@ class Factorization:
     def constant_in_span(self) -> bool:
         """True when the constant vector lies in the column space of X (explicitly or not).
 
-        Measured as the length of u (unit length) left after projecting it off X; at most
-        sqrt(p+1)·max(n, p)·eps means it is in the span (same rule as the rank tolerance).
+        Measured as the length of u (unit length) left after projecting it off X by a
+        truncated-SVD least-squares solve (stable under exact dependencies among X's
+        columns); at most sqrt(p+1)·max(n, p)·eps·10 means it is in the span (the rank
+        tolerance's rule with a safety factor).
         """
-        A = np.hstack([self.T_eq[:, 1 : self.p + 1], self.T_eq[:, :1]])
-        R = np.linalg.qr(A, mode="r")
-        left = abs(R[self.p, self.p]) if R.shape[0] > self.p else 0.0
+        A = self.T_eq[:, 1 : self.p + 1]
+        u = self.T_eq[:, 0]
+        cut = max(self.n, self.p) * EPS
+        coef, *_ = np.linalg.lstsq(A, u, rcond=cut)
+        left = float(np.linalg.norm(u - A @ coef))
         return bool(left <= np.sqrt(self.p + 1) * max(self.n, self.p) * EPS * 10)
 
 
@@ -156,8 +173,9 @@ def factorize(
     yv = np.zeros(n) if y is None else np.asarray(y, dtype=np.float64).reshape(-1)
     if yv.shape[0] != n:
         raise ValueError(f"y has {yv.shape[0]} rows, X has {n}")
+    sw: np.ndarray | None
     if weights is None:
-        sw = np.ones(n)
+        sw = None
         n_pos, sum_w = n, float(n)
     else:
         w = np.asarray(weights, dtype=np.float64).reshape(-1)

@@ -16,9 +16,11 @@ from app.core.factor import EPS, Factorization
 from app.core.numbers import finite_or_none, short_number
 
 #: Refinement runs when the rows are kept and either the problem is small (n·k below
-#: this many entries) or the equilibrated condition number exceeds REFINE_COND.
-REFINE_CELLS = 4_000_000
-REFINE_COND = 1e3
+#: this many entries) or the basis' condition number exceeds REFINE_COND. QR alone gives
+#: a relative error of about cond²·eps·|r|/(|X||b|) + cond·eps (Golub & Van Loan 4th ed.
+#: §5.3.7), below 1e-10 for cond ≤ 1e5 on ordinary data; above that, refinement pays off.
+REFINE_CELLS = 2_000_000
+REFINE_COND = 1e5
 REFINE_STEPS = 8
 
 
@@ -64,7 +66,7 @@ def _gradient(F: Factorization, B: list[int], b: np.ndarray) -> tuple[np.ndarray
     assert X is not None and y is not None
     g = np.zeros(len(B), dtype=np.longdouble)
     rss = np.longdouble(0)
-    step = 65536
+    step = 8192  # rows per extended-precision block: about 16·8192·k bytes at a time
     for s in range(0, X.shape[0], step):
         Xb = X[s : s + step][:, B].astype(np.longdouble)
         r = y[s : s + step].astype(np.longdouble) - Xb @ b

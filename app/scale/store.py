@@ -41,7 +41,8 @@ class Store:
         return self.ws.n
 
     def centered_length(self, hid: str) -> float:
-        """||x − mean·1||: rows 1.. of T hold the column projected off the constant."""
+        """||x − mean·1||: with the constant first in M, rows 1.. of T hold each column
+        projected off it (Golub & Van Loan 4th ed. §5.2, QR of a partitioned matrix)."""
         return float(np.linalg.norm(self.ws.T[1:, self.ws._index(hid)]))
 
     def guard(self, length: float, hid: str, what: str) -> None:

@@ -216,3 +216,24 @@ def test_factor_blocks_agree_with_one_qr() -> None:
     R = np.linalg.qr(M, mode="r")  # reference: numpy.linalg.qr (LAPACK geqrf)
     R = R * np.where(np.diag(R) < 0, -1.0, 1.0)[:, None]
     assert np.allclose(np.abs(F.T[:4, :4]), np.abs(R[:4, :4]), rtol=1e-10, atol=1e-9)
+
+
+def test_all_levels_without_intercept_is_a_centered_dependency() -> None:
+    rng = np.random.default_rng(12)
+    n = 90
+    codes = np.arange(n) % 3
+    D = np.column_stack([(codes == k).astype(float) for k in range(3)])
+    x = rng.normal(size=n)
+    X = np.column_stack([D, x, 2.0 * x])  # plus an exact multiple, to test the span check
+    names = ["g[a]", "g[b]", "g[c]", "x", "x2"]
+    y = D @ [1.0, 2.0, 3.0] + x + rng.normal(size=n)
+    d = diagnose(X, names, y, groups={"g": names[:3]})
+    # textbook identity: the indicators of every level sum to the constant, so the model
+    # holds a constant implicitly and R² is the centered one (as statsmodels decides it)
+    assert d.vif_centered and d.fit["r_squared_centered"]
+    ref = sm.OLS(y, X[:, :4]).fit()  # reference: statsmodels (implicit constant detected)
+    assert np.isclose(d.fit["r_squared"], ref.rsquared, rtol=1e-10)
+    # regressing g[a] on the others with a constant gives R² = 1 (g[a] = 1 − g[b] − g[c]):
+    # infinite VIF by definition; x and x2 are an exact pair
+    assert all(d.vif[c] is None for c in names)
+    assert d.gvif["g"]["gvif"] is None

@@ -53,7 +53,9 @@ def check_against_scratch(engine: EditEngine) -> None:
         assert close(fast, cnd.singular_values(F_ref.R_x))
         return
     ref = diagnose_factor(F_ref, response=d.response, groups=d.groups)
-    assert_same(engine.diagnose(), ref)
+    y_len = float(np.linalg.norm(d.y)) if d.y is not None else 0.0
+    units = {c: y_len / float(F_ref.scales[j]) for j, c in enumerate(d.columns)}
+    assert_same(engine.diagnose(), ref, units)
 
 
 @st.composite
