@@ -147,14 +147,18 @@ def fit_least_squares(F: Factorization, basis: Basis, relations: list[Relation],
     ses: dict[str, float | None] = {c: None for c in names}
     tv: dict[str, float | None] = {c: None for c in names}
     pv: dict[str, float | None] = {c: None for c in names}
+    tvals = pvals = None
+    if se is not None:
+        with np.errstate(divide="ignore", invalid="ignore"):
+            tvals = np.where(se > 0, b / np.where(se > 0, se, 1.0), np.nan)
+        pvals = 2 * stats.t.sf(np.abs(tvals), df_res)
     for i, j in enumerate(B):
         coef[names[j]] = float(b[i])
-        if se is not None:
+        if se is not None and tvals is not None and pvals is not None:
             ses[names[j]] = float(se[i])
             if se[i] > 0:
-                t = float(b[i] / se[i])
-                tv[names[j]] = t
-                pv[names[j]] = float(2 * stats.t.sf(abs(t), df_res))
+                tv[names[j]] = float(tvals[i])
+                pv[names[j]] = float(pvals[i])
     df_model = k - (1 if centered else 0)
     r2 = 1.0 - rss / tss if tss > 0 else None
     adj = None
