@@ -322,7 +322,16 @@ def run_serve(args: argparse.Namespace) -> int:
         raise InputError("the file does not exist", args.file, "Check the path")
     from app.web.server import run  # the web stack loads only when serving
 
-    run(args.file, host=args.host, port=args.port, open_browser=not args.no_browser)
+    # --share alone opens the server to the local network; an explicit --host still wins
+    # (tests share on 127.0.0.1).
+    host = args.host or ("0.0.0.0" if args.share else "127.0.0.1")
+    # Only what was asked for is passed on: run() has its own defaults (~/.rankscope).
+    extra: dict[str, Any] = {}
+    if args.data_dir is not None:
+        extra["data_dir"] = args.data_dir
+    if args.share:
+        extra["share"] = True
+    run(args.file, host=host, port=args.port, open_browser=not args.no_browser, **extra)
     return EXIT_OK
 
 
@@ -363,11 +372,19 @@ def build_parser() -> Parser:
     check.set_defaults(run=run_check)
 
     serve = sub.add_parser("serve", help="open the local web app",
-                           description="Start the local web app, optionally with FILE loaded.")
+                           description="Start the local web app, optionally with FILE loaded "
+                                       "as a new session. Sessions are kept between runs.")
     serve.add_argument("file", metavar="FILE", nargs="?", help="a table to open at start")
-    serve.add_argument("--host", default="127.0.0.1", help="address to listen on")
+    serve.add_argument("--host", default=None,
+                       help="address to listen on (default 127.0.0.1, or 0.0.0.0 with --share)")
     serve.add_argument("--port", type=int, default=8000, help="port to listen on")
     serve.add_argument("--no-browser", action="store_true", help="do not open a browser")
+    serve.add_argument("--data-dir", metavar="DIR", default=None,
+                       help="folder that keeps the sessions (default ~/.rankscope, or "
+                            "$RANKSCOPE_HOME)")
+    serve.add_argument("--share", action="store_true",
+                       help="listen on the local network and print share links; every "
+                            "request then needs a link's key")
     serve.set_defaults(run=run_serve)
     return parser
 

@@ -1,5 +1,6 @@
-// rankscope page behaviour: upload with progress, posting design changes, swapping the
-// server-rendered workspace in place, drawing figures, sorting tables. No dependencies.
+// rankscope page behaviour: upload with progress, posting versioned design changes, swapping
+// the server-rendered workspace in place (also when others change the session), drawing
+// figures, sorting tables, the start page's rename and delete. No dependencies.
 (function () {
   "use strict";
 
@@ -92,6 +93,33 @@
     return el ? el.dataset.session : null;
   }
 
+  // The view a change is made on: its version goes with the change, so the server can tell
+  // a change made on an older view (someone else changed the session meanwhile).
+  function viewRoot() {
+    return document.getElementById("workspace") || document.getElementById("overview");
+  }
+
+  function currentRevision() {
+    const root = viewRoot();
+    return root ? root.dataset.revision : undefined;
+  }
+
+  function newChangeId() {
+    // getRandomValues works on plain http too (randomUUID needs a secure context).
+    const bytes = new Uint8Array(12);
+    crypto.getRandomValues(bytes);
+    return Array.from(bytes, (b) => b.toString(16).padStart(2, "0")).join("");
+  }
+
+  function versioned(body) {
+    const out = Object.assign({}, body || {});
+    const root = viewRoot();
+    const version = root ? Number(root.dataset.version) : NaN;
+    if (!isNaN(version)) out.base_version = version;
+    out.change_id = newChangeId();
+    return out;
+  }
+
   function formChange(form) {
     const kind = form.dataset.change || "step";
     const payload = {};
@@ -122,32 +150,126 @@
   }
 
   let busy = false;
+  // The newest revision the live feed announced; the view catches up when it differs.
+  let announced = null;
+
+  async function send(url, init) {
+    // A change carries its id, so sending it again after a dropped connection is safe: the
+    // server saves it at most once and answers the retry as it answered the first.
+    for (let attempt = 0; ; attempt++) {
+      try {
+        return await fetch(url, init);
+      } catch (e) {
+        if (attempt >= 2) throw e;
+        await new Promise((r) => setTimeout(r, 400 * (attempt + 1)));
+      }
+    }
+  }
+
+  function settle(response, data, after) {
+    if (response.status === 409) {
+      // Someone changed the session first and this change no longer fits: say so and
+      // show the session as it now is.
+      notify(data.error || "The session changed meanwhile; nothing was saved.", "warn");
+      showFresh(data);
+      return;
+    }
+    if (!response.ok) {
+      notify(data.error || "That did not work (status " + response.status + ").");
+      resetOverviewChoices();
+      return;
+    }
+    clearNotice();
+    if (data.message) notify(data.message, "info");
+    if (data.rebased) {
+      notify("Saved on top of changes someone else made meanwhile.", "info");
+    }
+    if (after) after(data);
+    else swapWorkspace(data.html);
+  }
 
   async function post(url, body, after) {
     if (busy) return;
     busy = true;
     document.body.classList.add("working");
     try {
-      const response = await fetch(url, {
+      const response = await send(url, {
         method: "POST",
         headers: { "Content-Type": "application/json", Accept: "application/json" },
         body: body === undefined ? "{}" : JSON.stringify(body),
       });
-      const data = await readJson(response);
-      if (!response.ok) {
-        notify(data.error || "That did not work (status " + response.status + ").");
-        resetOverviewChoices();
-        return;
-      }
-      clearNotice();
-      if (after) after(data);
-      else swapWorkspace(data.html);
+      settle(response, await readJson(response), after);
     } catch (e) {
       notify("The server could not be reached: " + e.message);
     } finally {
       busy = false;
       document.body.classList.remove("working");
+      catchUp();
     }
+  }
+
+  async function importRecipe(input) {
+    if (busy || !input.files.length) return;
+    busy = true;
+    document.body.classList.add("working");
+    const data = new FormData();
+    data.append("file", input.files[0], input.files[0].name);
+    const v = versioned({});
+    if (v.base_version !== undefined) data.append("base_version", String(v.base_version));
+    data.append("import_id", v.change_id);
+    try {
+      const response = await send("/api/s/" + sessionId() + "/recipe", {
+        method: "POST", headers: { Accept: "application/json" }, body: data,
+      });
+      settle(response, await readJson(response));
+    } catch (e) {
+      notify("The server could not be reached: " + e.message);
+    } finally {
+      input.value = "";
+      busy = false;
+      document.body.classList.remove("working");
+      catchUp();
+    }
+  }
+
+  function showFresh(data) {
+    if (document.getElementById("workspace") && data.html) swapWorkspace(data.html);
+    else refresh();
+  }
+
+  // ---- live refresh ---------------------------------------------------------------
+  let refreshing = false;
+
+  async function refresh() {
+    const sid = sessionId();
+    if (!sid || refreshing) return;
+    refreshing = true;
+    try {
+      if (document.getElementById("workspace")) {
+        const r = await fetch("/s/" + sid + "/workspace");
+        if (r.ok) swapWorkspace(await r.text(), true);
+      } else if (document.getElementById("overview")) {
+        const r = await fetch(window.location.pathname);
+        if (r.ok) {
+          const doc = new DOMParser().parseFromString(await r.text(), "text/html");
+          const fresh = doc.getElementById("overview");
+          const old = document.getElementById("overview");
+          if (fresh && old) old.replaceWith(fresh);
+        }
+      }
+    } finally {
+      refreshing = false;
+    }
+    catchUp();
+  }
+
+  function catchUp() {
+    if (!busy && !refreshing && announced && announced !== currentRevision()) refresh();
+  }
+
+  function announce(revision) {
+    announced = revision;
+    catchUp();
   }
 
   function resetOverviewChoices() {
@@ -157,21 +279,49 @@
     });
   }
 
-  function swapWorkspace(html) {
+  function typedValues(root) {
+    // What the user has typed or chosen but not yet sent, by element id.
+    const kept = {};
+    root.querySelectorAll("input[id], select[id], textarea[id]").forEach((el) => {
+      if (el.type === "file" || el.type === "hidden") return;
+      if (el.type === "checkbox" || el.type === "radio") {
+        if (el.checked !== el.defaultChecked) kept[el.id] = { checked: el.checked };
+      } else if (el.tagName === "SELECT") {
+        const chosen = Array.from(el.options).some((o) => o.selected !== o.defaultSelected);
+        if (chosen) kept[el.id] = { value: el.value };
+      } else if (el.value !== el.defaultValue) {
+        kept[el.id] = { value: el.value };
+      }
+    });
+    return kept;
+  }
+
+  function swapWorkspace(html, fromOthers) {
     const old = document.getElementById("workspace");
     if (!old || !html) return;
     const focusedId = document.activeElement && document.activeElement.id;
     const openControls = Array.from(old.querySelectorAll("details.control"))
       .map((d) => d.open);
+    // A change by someone else must not wipe what this user is in the middle of typing.
+    const typed = fromOthers ? typedValues(old) : {};
     const holder = document.createElement("div");
     holder.innerHTML = html;
     const fresh = holder.firstElementChild;
     old.replaceWith(fresh);
+    Object.keys(typed).forEach((id) => {
+      const el = document.getElementById(id);
+      if (!el) return;
+      if ("checked" in typed[id]) el.checked = typed[id].checked;
+      else el.value = typed[id].value;
+    });
     // Keep the panels the user opened open across updates.
     fresh.querySelectorAll("details.control").forEach((d, i) => {
       if (openControls[i]) d.open = true;
     });
     drawFigures();
+    // The title lives outside the fragment; someone may have renamed the session.
+    const title = document.getElementById("session-title");
+    if (title && fresh.dataset.title) title.textContent = fresh.dataset.title;
     const again = focusedId && document.getElementById(focusedId);
     if (again) again.focus();
     // Screen readers hear what changed; a removed button's focus returns to the history bar.
@@ -186,7 +336,7 @@
   function sendChange(change) {
     const sid = sessionId();
     const overview = document.getElementById("overview");
-    post("/api/s/" + sid + "/changes", change,
+    post("/api/s/" + sid + "/changes", versioned(change),
       overview ? () => window.location.reload() : undefined);
   }
 
@@ -262,7 +412,7 @@
     if (target.hasAttribute("data-dismiss-notice")) { clearNotice(); return; }
     if (target.dataset.change) { sendChange(JSON.parse(target.dataset.change)); return; }
     if (target.dataset.action === "undo" || target.dataset.action === "redo") {
-      post("/api/s/" + sessionId() + "/" + target.dataset.action);
+      post("/api/s/" + sessionId() + "/" + target.dataset.action, versioned({}));
       return;
     }
     if (target.dataset.unpin) {
@@ -273,12 +423,23 @@
         });
       return;
     }
+    if (target.dataset.rename) { showRename(target.dataset.rename, true); return; }
+    if (target.hasAttribute("data-rename-cancel")) {
+      showRename(target.closest("form").dataset.renameForm, false);
+      return;
+    }
+    if (target.dataset.delete) { deleteSession(target.dataset.delete); return; }
     if (target.dataset.sort) sortTable(target);
   });
 
   document.addEventListener("submit", (e) => {
     const form = e.target;
-    if (form.id === "upload-form") { e.preventDefault(); return; }
+    if (form.id === "upload-form" || form.id === "import-form") { e.preventDefault(); return; }
+    if (form.dataset.renameForm) {
+      e.preventDefault();
+      renameSession(form);
+      return;
+    }
     if (form.id === "pin-form") {
       e.preventDefault();
       const label = form.elements.namedItem("label").value;
@@ -307,7 +468,9 @@
 
   document.addEventListener("change", (e) => {
     const el = e.target;
-    if (el.dataset.kindFor && el.value) {
+    if (el.id === "import-file") {
+      importRecipe(el);
+    } else if (el.dataset.kindFor && el.value) {
       sendChange({ kind: "step", payload: { step: "kind", column: el.dataset.kindFor, to: el.value } });
     } else if (el.hasAttribute("data-heatmap-switch")) {
       heatmapMethod = el.value;
@@ -324,6 +487,67 @@
     if (button && !button.disabled) { e.preventDefault(); button.click(); }
   });
 
+  // ---- start page: recent sessions --------------------------------------------------
+  function sessionRow(sid) {
+    return document.querySelector('[data-session-row="' + sid + '"]');
+  }
+
+  function showRename(sid, open) {
+    const row = sessionRow(sid);
+    if (!row) return;
+    const form = row.querySelector("form[data-rename-form]");
+    form.hidden = !open;
+    row.querySelector(".row-actions").hidden = open;
+    if (open) form.elements.namedItem("title").focus();
+  }
+
+  async function renameSession(form) {
+    const sid = form.dataset.renameForm;
+    const title = form.elements.namedItem("title").value;
+    try {
+      const r = await fetch("/api/s/" + sid + "/title", {
+        method: "POST",
+        headers: { "Content-Type": "application/json", Accept: "application/json" },
+        body: JSON.stringify({ title: title }),
+      });
+      const data = await readJson(r);
+      if (!r.ok) { notify(data.error || "The session could not be renamed."); return; }
+      clearNotice();
+      const link = sessionRow(sid).querySelector(".session-link");
+      link.textContent = data.title;
+      form.elements.namedItem("title").defaultValue = data.title;
+      showRename(sid, false);
+    } catch (e) {
+      notify("The server could not be reached: " + e.message);
+    }
+  }
+
+  async function deleteSession(sid) {
+    const row = sessionRow(sid);
+    const title = row ? row.querySelector(".session-link").textContent : "this session";
+    if (!window.confirm("Delete “" + title + "” with its history and pinned fits? " +
+      "Links to it stop working. This cannot be undone.")) return;
+    try {
+      const r = await fetch("/api/s/" + sid, { method: "DELETE", headers: { Accept: "application/json" } });
+      const data = await readJson(r);
+      if (!r.ok) { notify(data.error || "The session could not be deleted."); return; }
+      if (row) row.remove();
+      notify("Deleted “" + title + "”.", "info");
+    } catch (e) {
+      notify("The server could not be reached: " + e.message);
+    }
+  }
+
+  // What the live feed (live.js) needs from this file.
+  window.rankscope = { announce: announce, notify: notify, revision: currentRevision };
+
   setupUpload();
   drawFigures();
+  // A link's key (?t=…) is kept in a cookie by the server; take it out of the address bar
+  // so it is not bookmarked or shown over a shoulder by accident.
+  if (window.location.search.indexOf("t=") >= 0 && window.history.replaceState) {
+    const url = new URL(window.location.href);
+    url.searchParams.delete("t");
+    window.history.replaceState(null, "", url.pathname + url.search + url.hash);
+  }
 })();

@@ -213,6 +213,13 @@ class Store:
             moved.unlink(missing_ok=True)
             self._forget_table(key or "")
 
+    def stamp(self, session_id: str) -> tuple[int, float] | None:
+        """(version, time of the last change of any kind) or None when there is no such
+        session: one indexed read, cheap enough for watchers to poll."""
+        row = self._con().execute("SELECT version, updated FROM sessions WHERE id = ?",
+                                  (session_id,)).fetchone()
+        return None if row is None else (int(row[0]), float(row[1]))
+
     def load(self, session_id: str) -> SessionState:
         """Everything saved about the session, with its history folded into the recipe."""
         con = self._con()

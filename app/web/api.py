@@ -1,4 +1,4 @@
-"""JSON routes: upload, changes to the design, undo and redo, pinned fits, raw results.
+"""JSON routes: upload, versioned changes to the design, undo and redo, pinned fits, raw results.
 
 Each route hands work to the Workbench and returns its result; no linear algebra here.
 """
@@ -14,13 +14,15 @@ from fastapi.responses import JSONResponse
 
 from app.design.names import quoted
 from app.report.figures import all_figures
+from app.store import Applied, Conflict, SessionNotFound
 from app.tables.errors import InputError
 from app.tables.read import read_bytes
-from app.web.pages import bench_of
-from app.web.render import workspace_html
-from app.web.state import CHANGE_KINDS, Change
+from app.web.access import COOKIE_SECONDS, can_edit, cookie_name
+from app.web.live import Hub
+from app.web.render import current_html
+from app.web.state import CHANGE_KINDS, Change, Session
 from app.web.views import plain
-from app.web.workbench import Analysis, UnknownSession, Workbench
+from app.web.workbench import UnknownSession, Workbench, settings_of
 
 # Every route is a plain `def`: FastAPI runs it in its thread pool, so a long refit never
 # blocks the event loop that serves other requests.
@@ -30,15 +32,24 @@ T = TypeVar("T")
 
 #: Uploads above this size are refused before reading: the table is held in memory.
 MAX_UPLOAD_BYTES = 1 << 30
-EXAMPLE = 'Send {"kind": "step", "payload": {"step": "drop", "column": "x"}}'
+EXAMPLE = ('Send {"kind": "step", "payload": {"step": "drop", "column": "x"}, '
+           '"base_version": 3, "change_id": "a-new-id"}')
 
 
-def _guarded(what: str, fn: Callable[..., T], *args: Any) -> T:
+def bench_of(request: Request) -> Workbench:
+    return request.app.state.bench
+
+
+def live_of(request: Request) -> Hub:
+    return request.app.state.live
+
+
+def guarded(what: str, fn: Callable[..., T], *args: Any) -> T:
     """Run fn; a failure the readers, recipe or core did not word still becomes a message
     (and the session is unchanged, as the Workbench stores only what succeeded)."""
     try:
         return fn(*args)
-    except (InputError, UnknownSession):
+    except (InputError, UnknownSession, SessionNotFound):
         raise
     except Exception as exc:  # noqa: BLE001 - never a 500 for a user's file or step
         log.exception("%s failed", what)
@@ -47,58 +58,98 @@ def _guarded(what: str, fn: Callable[..., T], *args: Any) -> T:
                          "file") from exc
 
 
-def _state(bench: Workbench, session_id: str, analysis: Analysis) -> dict[str, Any]:
-    session = bench.session(session_id)
-    return {
-        "html": workspace_html(bench, session, analysis),
+def state_of(request: Request, session: Session) -> dict[str, Any]:
+    """What a page needs after a change: the fresh workspace and where the history is."""
+    bench = bench_of(request)
+    out: dict[str, Any] = {
+        "version": session.version,
+        "revision": session.revision,
         "position": session.position,
         "history_length": len(session.history),
-        "rank": analysis.diagnosis["rank"],
-        "columns": analysis.columns,
-        "seconds": round(analysis.seconds, 4),
     }
+    if request.query_params.get("html") != "0":  # scripts may skip the page fragment
+        out["html"] = current_html(bench, session, can_edit(request))
+    try:
+        analysis = bench.current(session)
+    except InputError:
+        return out
+    return {**out, "rank": analysis.diagnosis["rank"], "columns": analysis.columns,
+            "seconds": round(analysis.seconds, 4)}
+
+
+def answer(request: Request, session_id: str, outcome: Applied | Conflict,
+           status: int = 200, **extra: Any) -> JSONResponse:
+    """The reply to a versioned change: the session as it now is, and what became of the
+    change. A Conflict is 409 (RFC 9110 §15.5.10) with its message: nothing was saved and
+    the page shows the state that the change no longer fits."""
+    session = bench_of(request).session(session_id)
+    body = {**state_of(request, session), **extra}
+    if isinstance(outcome, Conflict):
+        return JSONResponse({**body, "error": outcome.message, "conflict": True},
+                            status_code=409)
+    if not outcome.repeated:
+        live_of(request).notify(session_id)
+    return JSONResponse({**body, "saved_as": outcome.version, "rebased": outcome.rebased,
+                         "repeated": outcome.repeated}, status_code=status)
+
+
+def versioning(body: Any) -> tuple[int | None, str | None]:
+    """The base version and change id a request carries (both optional: without them the
+    change is made on the current version and a retry would be a new change)."""
+    if not isinstance(body, dict):
+        return None, None
+    return body.get("base_version"), body.get("change_id")
 
 
 @router.post("/upload")
 def upload(request: Request, file: Annotated[UploadFile, File()]) -> JSONResponse:
-    """Read an uploaded table into a new session; answers with the overview's address."""
+    """Read an uploaded table into a new session; answers with the overview's address and
+    leaves the session's edit key in a cookie for the uploader."""
     name = file.filename or "upload"
     data = file.file.read(MAX_UPLOAD_BYTES + 1)
     if len(data) > MAX_UPLOAD_BYTES:
         raise InputError(f"the file is larger than {MAX_UPLOAD_BYTES >> 20} MiB", quoted(name),
                          "Use the command line for tables this large")
-    table = _guarded(f"reading {quoted(name)}", read_bytes, data, name)
-    session = bench_of(request).start(table)
-    return JSONResponse({"session": session.session_id, "url": f"/s/{session.session_id}",
-                         "rows": table.n_rows, "columns": table.columns, "notes": table.notes},
-                        status_code=201)
+    table = guarded(f"reading {quoted(name)}", read_bytes, data, name)
+    session, made = bench_of(request).start(data, name, table)
+    sid = session.session_id
+    response = JSONResponse({"session": sid, "url": f"/s/{sid}", "rows": table.n_rows,
+                             "columns": table.columns, "notes": table.notes}, status_code=201)
+    response.set_cookie(cookie_name(sid), made.edit_token, max_age=COOKIE_SECONDS,
+                        httponly=True, samesite="lax")
+    return response
 
 
 @router.post("/s/{session_id}/changes")
 def add_change(request: Request, session_id: str,
                body: Annotated[Any, Body()] = None) -> JSONResponse:
-    """Body: {"kind": "step" | "keep" | "ridge", "payload": {...}}. On success the change
-    joins the history; on failure the session is left exactly as it was."""
+    """Body: {"kind": "step" | "keep" | "ridge", "payload": {...}, "base_version": n,
+    "change_id": "..."}. Saved, saved on top of newer changes, or refused (400 when wrong
+    on its own base, 409 when the session moved on and it no longer fits)."""
     if not isinstance(body, dict) or body.get("kind") not in CHANGE_KINDS \
             or not isinstance(body.get("payload"), dict):
         raise InputError("a change needs a kind (step, keep or ridge) and a payload object",
                          "request body", EXAMPLE)
-    bench = bench_of(request)
-    change = Change(body["kind"], body["payload"])
-    analysis = _guarded("this change", bench.apply, session_id, change)
-    return JSONResponse(_state(bench, session_id, analysis))
+    base, change_id = versioning(body)
+    outcome = guarded("this change", bench_of(request).apply, session_id,
+                      Change(body["kind"], body["payload"]), base, change_id)
+    return answer(request, session_id, outcome)
 
 
 @router.post("/s/{session_id}/undo")
-def undo(request: Request, session_id: str) -> JSONResponse:
-    bench = bench_of(request)
-    return JSONResponse(_state(bench, session_id, _guarded("undo", bench.move, session_id, -1)))
+def undo(request: Request, session_id: str, body: Annotated[Any, Body()] = None
+         ) -> JSONResponse:
+    base, change_id = versioning(body)
+    outcome = guarded("undo", bench_of(request).move, session_id, -1, base, change_id)
+    return answer(request, session_id, outcome)
 
 
 @router.post("/s/{session_id}/redo")
-def redo(request: Request, session_id: str) -> JSONResponse:
-    bench = bench_of(request)
-    return JSONResponse(_state(bench, session_id, _guarded("redo", bench.move, session_id, 1)))
+def redo(request: Request, session_id: str, body: Annotated[Any, Body()] = None
+         ) -> JSONResponse:
+    base, change_id = versioning(body)
+    outcome = guarded("redo", bench_of(request).move, session_id, 1, base, change_id)
+    return answer(request, session_id, outcome)
 
 
 @router.post("/s/{session_id}/pins")
@@ -106,9 +157,9 @@ def pin(request: Request, session_id: str, body: Annotated[Any, Body()] = None) 
     """Pin the current fit. Body (optional): {"label": "..."}."""
     label = body.get("label") if isinstance(body, dict) else None
     bench = bench_of(request)
-    pinned = _guarded("pinning", bench.pin, session_id, str(label or ""))
-    analysis = bench.current(bench.session(session_id))
-    return JSONResponse({**_state(bench, session_id, analysis), "pin": pinned.pin_id},
+    pinned = guarded("pinning", bench.pin, session_id, str(label or ""))
+    live_of(request).notify(session_id)
+    return JSONResponse({**state_of(request, bench.session(session_id)), "pin": pinned.pin_id},
                         status_code=201)
 
 
@@ -116,7 +167,8 @@ def pin(request: Request, session_id: str, body: Annotated[Any, Body()] = None) 
 def unpin(request: Request, session_id: str, pin_id: int) -> JSONResponse:
     bench = bench_of(request)
     bench.unpin(session_id, pin_id)
-    return JSONResponse(_state(bench, session_id, bench.current(bench.session(session_id))))
+    live_of(request).notify(session_id)
+    return JSONResponse(state_of(request, bench.session(session_id)))
 
 
 @router.get("/s/{session_id}/diagnosis")
@@ -134,14 +186,16 @@ def figures(request: Request, session_id: str) -> JSONResponse:
 
 @router.get("/s/{session_id}/history")
 def history(request: Request, session_id: str) -> JSONResponse:
-    """The history with the undo pointer, and the recipe the changes in force add up to."""
-    bench = bench_of(request)
-    session = bench.session(session_id)
-    analysis = bench.current(session)
+    """The history with the undo pointer, the recipe the changes in force add up to, and
+    every accepted change as saved (version, change id, base version)."""
+    session = bench_of(request).session(session_id)
+    settings = settings_of(session.in_force)  # no analysis needed to say what is in force
     return JSONResponse({
+        "version": session.version,
         "position": session.position,
         "changes": [c.to_dict() for c in session.history],
-        "recipe": analysis.settings.recipe.steps,
-        "keep": list(analysis.settings.keep),
-        "ridge_penalty": analysis.settings.ridge,
+        "recipe": settings.recipe.steps,
+        "keep": list(settings.keep),
+        "ridge_penalty": settings.ridge,
+        "entries": request.app.state.sessions.entries(session_id),
     })

@@ -17,9 +17,11 @@ import pandas as pd
 
 from app.core import diagnose
 from app.design.recipe import Recipe, build_design
+from app.store import Store
 from app.tables.read import read_table
 from app.web.render import workspace_html
-from app.web.state import Change, MemoryStore
+from app.web.state import Change
+from app.web.stored import StoredSessions
 from app.web.workbench import Workbench
 
 ROOT = Path(__file__).resolve().parents[2]
@@ -50,24 +52,28 @@ def full_analysis(path: Path, steps: list[dict]) -> None:
 def measure(path: Path, response: str, toggle: str,
             repeat: int) -> dict[str, tuple[float, float]]:
     """Full analysis versus one change (drop `toggle`, then restore it, alternately) made
-    through the Workbench, with and without rendering the workspace fragment."""
+    through the Workbench as the web app makes it (saved in a session store in a temporary
+    folder), with and without rendering the workspace fragment."""
     steps = [{"step": "response", "column": response}]
     full = _best(lambda: full_analysis(path, steps), repeat)
-    bench = Workbench(MemoryStore(), cache_size=2)
-    session = bench.start(read_table(str(path)))
-    bench.apply(session.session_id, Change("step", steps[0]))
-    state = {"dropped": False}
+    with tempfile.TemporaryDirectory() as folder, Store(folder) as store:
+        bench = Workbench(StoredSessions(store), cache_size=2)
+        session, _ = bench.start(path.read_bytes(), path.name)
+        sid = session.session_id
+        bench.apply(sid, Change("step", steps[0]))
+        state = {"dropped": False}
 
-    def change(render: bool) -> None:
-        kind = "restore" if state["dropped"] else "drop"
-        result = bench.apply(session.session_id,
-                             Change("step", {"step": kind, "column": toggle}))
-        state["dropped"] = not state["dropped"]
-        if render:
-            workspace_html(bench, bench.session(session.session_id), result)
+        def change(render: bool) -> None:
+            kind = "restore" if state["dropped"] else "drop"
+            bench.apply(sid, Change("step", {"step": kind, "column": toggle}))
+            state["dropped"] = not state["dropped"]
+            now = bench.session(sid)
+            result = bench.current(now)
+            if render:
+                workspace_html(bench, now, result)
 
-    refit = _best(lambda: change(False), repeat)
-    refit_render = _best(lambda: change(True), repeat)
+        refit = _best(lambda: change(False), repeat)
+        refit_render = _best(lambda: change(True), repeat)
     return {"full": full, "refit": refit, "refit_render": refit_render}
 
 

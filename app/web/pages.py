@@ -1,4 +1,4 @@
-"""Page routes: the upload page, a table's overview, the inspection view and its fragments.
+"""Page routes: the start page, a table's overview, the inspection view and its fragments.
 
 Renders core results through render.py; no linear algebra and no state changes here.
 """
@@ -10,8 +10,9 @@ from fastapi.responses import HTMLResponse
 
 from app.tables import sniff
 from app.tables.errors import InputError
+from app.web.access import can_edit, role_of
 from app.web.overview import summarize
-from app.web.render import compare_context, render, workspace_html
+from app.web.render import compare_context, current_html, render
 from app.web.workbench import Workbench
 
 router = APIRouter()
@@ -25,13 +26,18 @@ def message_page(text: str, status: int) -> HTMLResponse:
     return HTMLResponse(render("message.html", message=text, status=status), status_code=status)
 
 
+def _page(request: Request, name: str, **context: object) -> HTMLResponse:
+    """A session page, with what the session bar needs (role, sharing mode)."""
+    return HTMLResponse(render(name, role=role_of(request), can_edit=can_edit(request),
+                               sharing=request.app.state.share, **context))
+
+
 @router.get("/", response_class=HTMLResponse)
 def upload_page(request: Request) -> HTMLResponse:
-    bench = bench_of(request)
-    open_sessions = [bench.store.get(i) for i in bench.store.ids()]
     exts = sorted(e for e in sniff.TEXT_EXTS | sniff.EXCEL_EXTS | sniff.PARQUET_EXTS if e)
-    return HTMLResponse(render("upload.html", sessions=[s for s in open_sessions if s],
-                               accept=",".join([*exts, ".gz"]), supported=sniff.SUPPORTED))
+    return HTMLResponse(render("upload.html", sessions=request.app.state.sessions.recent(),
+                               accept=",".join([*exts, ".gz"]), supported=sniff.SUPPORTED,
+                               data_dir=str(request.app.state.sessions.db.root)))
 
 
 @router.get("/s/{session_id}", response_class=HTMLResponse)
@@ -44,26 +50,23 @@ def overview_page(request: Request, session_id: str) -> HTMLResponse:
     except InputError as e:
         problem = e.message
     used_as = {w.name: w for w in analysis.working} if analysis else {}
-    return HTMLResponse(render(
-        "overview.html", session=session, summaries=summarize(session.table),
-        analysis=analysis, used_as=used_as, problem=problem,
-    ))
+    return _page(request, "overview.html", session=session,
+                 summaries=summarize(session.table), analysis=analysis, used_as=used_as,
+                 problem=problem)
 
 
 @router.get("/s/{session_id}/inspect", response_class=HTMLResponse)
 def inspect_page(request: Request, session_id: str) -> HTMLResponse:
     bench = bench_of(request)
     session = bench.session(session_id)
-    analysis = bench.current(session)
-    return HTMLResponse(render("inspect.html", session=session,
-                               workspace=workspace_html(bench, session, analysis)))
+    return _page(request, "inspect.html", session=session,
+                 workspace=current_html(bench, session, can_edit(request)))
 
 
 @router.get("/s/{session_id}/workspace", response_class=HTMLResponse)
 def workspace_fragment(request: Request, session_id: str) -> HTMLResponse:
     bench = bench_of(request)
-    session = bench.session(session_id)
-    return HTMLResponse(workspace_html(bench, session, bench.current(session)))
+    return HTMLResponse(current_html(bench, bench.session(session_id), can_edit(request)))
 
 
 @router.get("/s/{session_id}/compare", response_class=HTMLResponse)

@@ -13,6 +13,7 @@ from jinja2 import Environment, FileSystemLoader, select_autoescape
 from app.design.steps import COMBINE_METHODS
 from app.report.cautions import choose_cautions
 from app.report.figures import all_figures
+from app.tables.errors import InputError
 from app.web import views
 from app.web.compare import FitRef, compare_fits, summary_pairs
 from app.web.state import Session
@@ -40,6 +41,7 @@ def environment() -> Environment:
     env.filters["num"] = views.num
     env.filters["inf"] = views.infinite_num
     env.filters["pval"] = views.p_value
+    env.filters["isotime"] = views.iso_time
     return env
 
 
@@ -98,8 +100,10 @@ def compare_context(bench: Workbench, session: Session, a: str, b: str) -> dict[
     return ctx
 
 
-def workspace_context(bench: Workbench, session: Session, analysis: Analysis) -> dict[str, Any]:
-    """Everything the inspection view shows for the current state of a session."""
+def workspace_context(bench: Workbench, session: Session, analysis: Analysis,
+                      can_edit: bool = True) -> dict[str, Any]:
+    """Everything the inspection view shows for the current state of a session; without
+    can_edit the controls are shown switched off (a view-only link)."""
     d = analysis.diagnosis
     figures = all_figures(d)
     deps = [{**dep, "remedies": views.dependency_remedies(dep, analysis)}
@@ -130,8 +134,24 @@ def workspace_context(bench: Workbench, session: Session, analysis: Analysis) ->
         "combine_methods": COMBINE_CHOICES,
         "history": history,
         "cmp": compare_context(bench, session, a, b),
+        "can_edit": can_edit,
     }
 
 
-def workspace_html(bench: Workbench, session: Session, analysis: Analysis) -> str:
-    return render("workspace.html", **workspace_context(bench, session, analysis))
+def workspace_html(bench: Workbench, session: Session, analysis: Analysis,
+                   can_edit: bool = True) -> str:
+    return render("workspace.html", **workspace_context(bench, session, analysis, can_edit))
+
+
+def current_html(bench: Workbench, session: Session, can_edit: bool = True) -> str:
+    """The workspace of the session's current state. A saved state that no longer analyses
+    (say, a recipe step that newer code refuses) gets a fragment with the message and the
+    history controls instead, so the session can still be walked back."""
+    try:
+        analysis = bench.current(session)
+    except InputError as e:
+        history = [(i + 1, describe_change(c), i < session.position)
+                   for i, c in enumerate(session.history)]
+        return render("stuck.html", session=session, problem=e.message, history=history,
+                      can_edit=can_edit)
+    return workspace_html(bench, session, analysis, can_edit)

@@ -1,18 +1,27 @@
-"""Runs the inspection app with uvicorn on a loopback address and opens the browser.
-
-Serving only: the app is built in app.py; nothing here reads data beyond the given file.
+"""Runs the web app with uvicorn: on this computer only by default, on the local network when
+sharing; prints the links and opens the browser. Serving only: the app is built in app.py.
 """
 
 from __future__ import annotations
 
+import ipaddress
+import os
+import socket
 import threading
 import time
 import webbrowser
+from pathlib import Path
 
 import uvicorn
 
+from app.store import Store, default_root
 from app.tables.read import read_table
 from app.web.app import create_app
+from app.web.links import link
+
+#: Seconds a stopping server waits for open requests; live feeds never end on their own
+#: quickly, so without a bound Ctrl+C would wait for every open page.
+SHUTDOWN_SECONDS = 2
 
 
 def _open_when_up(server: uvicorn.Server, url: str) -> None:
@@ -24,20 +33,79 @@ def _open_when_up(server: uvicorn.Server, url: str) -> None:
         time.sleep(0.05)
 
 
-def run(path: str | None, host: str = "127.0.0.1", port: int = 8765,
-        open_browser: bool = True) -> None:
-    """Serve the app; with a path, read it first (an InputError is raised before the
-    server starts) and open its overview page, else the upload page."""
-    app = create_app()
-    start = "/"
+def is_loopback(host: str) -> bool:
+    """True for addresses only this computer can reach (127.0.0.0/8, ::1, localhost)."""
+    if host == "localhost":
+        return True
+    try:
+        return ipaddress.ip_address(host).is_loopback
+    except ValueError:
+        return False
+
+
+def reachable_host(host: str) -> str:
+    """The address others should use: for a wildcard bind, this computer's address on the
+    local network (a UDP socket is 'connected' only to ask the routing table; nothing is
+    sent), else the host as given."""
+    if host not in ("0.0.0.0", "::", ""):
+        return host
+    with socket.socket(socket.AF_INET, socket.SOCK_DGRAM) as s:
+        try:
+            s.connect(("10.255.255.255", 1))
+            return str(s.getsockname()[0])
+        except OSError:
+            return socket.gethostname()
+
+
+def base_url(host: str, port: int) -> str:
+    return f"http://[{host}]:{port}" if ":" in host else f"http://{host}:{port}"
+
+
+def run(path: str | os.PathLike | None, host: str = "127.0.0.1", port: int = 8765,
+        open_browser: bool = True, *, data_dir: str | os.PathLike | None = None,
+        share: bool = False) -> None:
+    """Serve the app with sessions kept in data_dir (default ~/.rankscope). With a path,
+    read it first (an InputError is raised before anything is saved or listens) and open
+    it as a new session. share, or any address beyond this computer, makes every request
+    need a link's token; the links are printed."""
+    table = data = None
     if path is not None:
-        session = app.state.bench.start(read_table(path))
-        start = f"/s/{session.session_id}"
-    config = uvicorn.Config(app, host=host, port=port, log_level="warning")
+        name = Path(path).name
+        table = read_table(path, name=name)
+        data = Path(path).read_bytes()
+    share = share or not is_loopback(host)
+    store = Store(data_dir if data_dir is not None else default_root())
+    base = base_url(reachable_host(host), port)
+    app = create_app(store, share=share, public_url=base if share else None)
+    lines = []
+    start = f"{base}/"
+    if share:
+        start = f"{base}/?t={app.state.owner_key}"
+        lines.append(f"  your start page:  {start} (keep it to yourself: it opens every "
+                     "session)")
+    if data is not None and table is not None:
+        session, made = app.state.bench.start(data, table.source, table)
+        sid = session.session_id
+        # Your own browser opens the session with the key it already has: the owner key
+        # when sharing (so the start page opens too), else the session's edit key.
+        start = link(base, sid, app.state.owner_key if share else made.edit_token)
+        if share:
+            lines.append(f"  edit link:        {link(base, sid, made.edit_token)}")
+            lines.append(f"  view-only link:   {link(base, sid, made.view_token)}")
+    where = "on your network" if share else "on this computer only"
+    print(f"rankscope is serving {where} at {start} (Ctrl+C stops it)", flush=True)
+    for line in lines:
+        print(line, flush=True)
+    print(f"  sessions are kept in {store.root}", flush=True)
+    if share:
+        print("  every request needs one of these links; anyone who has a link can use it "
+              "until its session is deleted", flush=True)
+    config = uvicorn.Config(app, host=host, port=port, log_level="warning",
+                            timeout_graceful_shutdown=SHUTDOWN_SECONDS)
     server = uvicorn.Server(config)
-    shown = f"[{host}]" if ":" in host else host
-    url = f"http://{shown}:{port}{start}"
-    print(f"rankscope is serving at {url} (Ctrl+C stops it)", flush=True)
     if open_browser:
-        threading.Thread(target=_open_when_up, args=(server, url), daemon=True).start()
-    server.run()
+        threading.Thread(target=_open_when_up, args=(server, start), daemon=True).start()
+    try:
+        server.run()
+    finally:
+        store.close()

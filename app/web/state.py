@@ -1,16 +1,15 @@
-"""Inspection sessions: the table, the history of changes with its undo pointer, pinned fits.
+"""Inspection sessions as the web app sees them: table, history with undo pointer, pinned fits.
 
-Storage only, behind the small SessionStore interface (in memory for now); no analysis here.
+Records and the SessionStore interface only (implemented in stored.py); no analysis here.
 """
 
 from __future__ import annotations
 
-import secrets
-import threading
 import time
 from dataclasses import dataclass, field, replace
 from typing import Any, Protocol
 
+from app.store.records import Applied, Conflict, Created
 from app.tables.table import Table
 
 #: What a history entry can change. "step" carries a recipe step; "keep" and "ridge"
@@ -45,11 +44,12 @@ class PinnedFit:
 
 @dataclass
 class Session:
-    """One user's inspection of one table.
+    """One inspection of one table, as loaded from the store.
 
-    history: every change made, including those undone; position: how many are in force
-    (undo moves it back, redo forward, a new change cuts off what lay beyond it).
-    version: bumped on every stored change, so derived results can be cached by it.
+    history: the edits in force, then those undone that redo would bring back; position:
+    how many are in force (undo moves it back, redo forward, a new change cuts off what
+    lay beyond it). version: the store's version, the base of the next change.
+    updated: when anything about the session last changed (pins and title included).
     """
 
     session_id: str
@@ -59,10 +59,18 @@ class Session:
     pinned: list[PinnedFit] = field(default_factory=list)
     created: float = field(default_factory=time.time)
     version: int = 0
+    title: str = ""
+    updated: float = 0.0
 
     @property
     def in_force(self) -> list[Change]:
         return self.history[: self.position]
+
+    @property
+    def revision(self) -> str:
+        """Changes whenever anything shown about the session does; pages compare it with
+        what the live feed announces to know whether to refresh."""
+        return f"{self.version}-{round(self.updated * 1e6)}"
 
     def with_change(self, change: Change) -> Session:
         """A copy with `change` appended at the pointer (the redo tail is cut off)."""
@@ -76,45 +84,18 @@ class Session:
 
 
 class SessionStore(Protocol):
-    """Where sessions live. Callers get a session, change a copy, and put it back."""
+    """Where sessions live. Reads give a Session; every change to the history is one
+    versioned call, judged by the store against what happened since its base version."""
 
-    def create(self, table: Table) -> Session: ...
+    def create(self, data: bytes, filename: str, table: Table | None = None
+               ) -> tuple[Session, Created]: ...
 
     def get(self, session_id: str) -> Session | None: ...
 
-    def put(self, session: Session) -> None: ...
+    def change(self, session_id: str, base_version: int, kind: str, payload: dict[str, Any],
+               change_id: str | None) -> Applied | Conflict: ...
 
-    def lock(self, session_id: str) -> threading.Lock: ...
+    def add_pin(self, session_id: str, label: str, fit: dict[str, Any], *, version: int,
+                position: int, columns: list[str], rank: int) -> PinnedFit: ...
 
-    def ids(self) -> list[str]: ...
-
-
-class MemoryStore:
-    """Sessions in this process's memory; they end when the server stops."""
-
-    def __init__(self) -> None:
-        self._sessions: dict[str, Session] = {}
-        self._locks: dict[str, threading.Lock] = {}
-        self._guard = threading.Lock()
-
-    def create(self, table: Table) -> Session:
-        session = Session(session_id=secrets.token_urlsafe(9), table=table)
-        with self._guard:
-            self._sessions[session.session_id] = session
-            self._locks[session.session_id] = threading.Lock()
-        return session
-
-    def get(self, session_id: str) -> Session | None:
-        return self._sessions.get(session_id)
-
-    def put(self, session: Session) -> None:
-        with self._guard:
-            session.version += 1
-            self._sessions[session.session_id] = session
-
-    def lock(self, session_id: str) -> threading.Lock:
-        with self._guard:
-            return self._locks.setdefault(session_id, threading.Lock())
-
-    def ids(self) -> list[str]:
-        return sorted(self._sessions, key=lambda s: -self._sessions[s].created)
+    def remove_pin(self, session_id: str, pin_id: int) -> None: ...

@@ -7,6 +7,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
+from datetime import datetime
 from typing import Any
 
 from app.design.design import INTERCEPT
@@ -50,6 +51,13 @@ def num(x: Any, digits: int = 4) -> str:
 def infinite_num(x: Any, digits: int = 4) -> str:
     """For fields where the core writes null for infinity (VIF, condition numbers)."""
     return "∞" if x is None else num(x, digits)
+
+
+def iso_time(ts: float, readable: bool = False) -> str:
+    """A saved time (seconds since the epoch) in local time: ISO 8601 for machines, or
+    "2024-05-01 14:03" for people."""
+    when = datetime.fromtimestamp(ts).astimezone()
+    return when.strftime("%Y-%m-%d %H:%M") if readable else when.isoformat(timespec="seconds")
 
 
 def p_value(p: Any) -> str:

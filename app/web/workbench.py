@@ -21,6 +21,7 @@ from app.design.names import quoted
 from app.design.recipe import Recipe
 from app.design.replay import trace_design
 from app.design.steps import describe_step
+from app.store.records import Applied, Conflict, Created
 from app.tables.errors import InputError
 from app.tables.table import Table
 from app.web.state import Change, PinnedFit, Session, SessionStore
@@ -31,7 +32,7 @@ LEVEL_MENU_LIMIT = 60
 
 
 class UnknownSession(KeyError):
-    """No session with this id is open (sessions end when the server stops)."""
+    """No session has this id (it was never made, or it was deleted)."""
 
 
 @dataclass(frozen=True)
@@ -175,7 +176,8 @@ class Workbench:
     """The analysis side of the web app: sessions in a store, recent analyses in memory.
 
     Every change is tried on a copy of the session first; only a change whose analysis
-    succeeds is stored, so a failing step never touches what the session holds.
+    succeeds is stored, so a failing step never touches what the session holds. Changes
+    carry the version they were made on; the store decides what a late one means.
     """
 
     def __init__(self, store: SessionStore, cache_size: int = 12) -> None:
@@ -209,60 +211,54 @@ class Workbench:
     def current(self, session: Session) -> Analysis:
         return self.analysis_at(session, session.position)
 
-    def start(self, table: Table) -> Session:
-        """A new session on a table; the recipe starts empty (the user picks the response)."""
-        return self.store.create(table)
+    def start(self, data: bytes, filename: str, table: Table | None = None
+              ) -> tuple[Session, Created]:
+        """A new session on an uploaded file (table: already read from exactly these
+        bytes); the recipe starts empty (the user picks the response)."""
+        return self.store.create(data, filename, table)
 
-    def apply(self, session_id: str, change: Change) -> Analysis:
-        """Add a change at the undo pointer; store it only if the analysis succeeds."""
+    def apply(self, session_id: str, change: Change, base_version: int | None = None,
+              change_id: str | None = None) -> Applied | Conflict:
+        """Add a change made by someone who saw base_version (default: the current one).
+
+        The store judges it against what happened since (saved, saved on top, or refused
+        with a Conflict). When nothing happened since, the analysis of the result is made
+        first, so a change that cannot be analysed is refused and nothing is saved.
+        """
         change = check_change(change)
-        with self.store.lock(session_id):
-            session = self.session(session_id)
-            if change.kind == "keep":
-                column = change.payload["column"]
-                if column not in self.current(session).columns:
-                    raise InputError(
-                        f"{quoted(column)} is not a column of the design, so it cannot be "
-                        "kept first", "basis choice", "Choose a column the design has")
-            candidate = session.with_change(change)
-            result = self.current(candidate)
-            self.store.put(candidate)
-            return result
+        session = self.session(session_id)
+        base = session.version if base_version is None else base_version
+        if base == session.version:
+            self.current(session.with_change(change))
+        return self.store.change(session_id, base, change.kind, change.payload, change_id)
 
     def pin(self, session_id: str, label: str = "") -> PinnedFit:
         """Keep the current fit for comparison."""
-        with self.store.lock(session_id):
-            session = self.session(session_id)
-            result = self.current(session)
-            fit = result.diagnosis.get("fit")
-            if fit is None:
-                raise InputError("there is no fit to pin yet", "fit",
-                                 "Choose a response column first")
-            pin_id = max((p.pin_id for p in session.pinned), default=0) + 1
-            label = label.strip() or f"Fit {pin_id}: after {session.position} change(s)"
-            pinned = PinnedFit(pin_id, label[:80], session.position, fit, result.columns,
-                               int(result.diagnosis["rank"]), time.time())
-            session.pinned = [*session.pinned, pinned]
-            self.store.put(session)
-            return pinned
+        session = self.session(session_id)
+        result = self.current(session)
+        fit = result.diagnosis.get("fit")
+        if fit is None:
+            raise InputError("there is no fit to pin yet", "fit",
+                             "Choose a response column first")
+        number = max((p.pin_id for p in session.pinned), default=0) + 1
+        label = label.strip()[:80] or f"Fit {number}: after {session.position} change(s)"
+        return self.store.add_pin(session_id, label, fit, version=session.version,
+                                  position=session.position, columns=result.columns,
+                                  rank=int(result.diagnosis["rank"]))
 
     def unpin(self, session_id: str, pin_id: int) -> None:
-        with self.store.lock(session_id):
-            session = self.session(session_id)
-            if not any(p.pin_id == pin_id for p in session.pinned):
-                raise InputError(f"there is no pinned fit number {pin_id}", "pinned fits")
-            session.pinned = [p for p in session.pinned if p.pin_id != pin_id]
-            self.store.put(session)
+        self.store.remove_pin(session_id, pin_id)
 
-    def move(self, session_id: str, delta: int) -> Analysis:
-        """Undo (delta −1) or redo (+1); stored only once the state there is analysed."""
-        with self.store.lock(session_id):
-            session = self.session(session_id)
+    def move(self, session_id: str, delta: int, base_version: int | None = None,
+             change_id: str | None = None) -> Applied | Conflict:
+        """Undo (delta −1) or redo (+1) as seen at base_version; the target state is
+        analysed before the move is saved, as in apply."""
+        session = self.session(session_id)
+        base = session.version if base_version is None else base_version
+        word = "undo" if delta < 0 else "redo"
+        if base == session.version:
             target = session.position + delta
             if not 0 <= target <= len(session.history):
-                word = "undo" if delta < 0 else "redo"
                 raise InputError(f"there is nothing to {word}", "history")
-            candidate = replace(session, position=target)
-            result = self.current(candidate)
-            self.store.put(candidate)
-            return result
+            self.current(replace(session, position=target))
+        return self.store.change(session_id, base, word, {}, change_id)

@@ -45,8 +45,9 @@ def _free_port() -> int:
 @pytest.fixture(scope="session")
 def base_url() -> Iterator[str]:
     port = _free_port()
+    # Live feeds stay open while a page is; a bounded graceful stop keeps teardown short.
     server = uvicorn.Server(uvicorn.Config(create_app(), host="127.0.0.1", port=port,
-                                           log_level="warning"))
+                                           log_level="warning", timeout_graceful_shutdown=2))
     thread = threading.Thread(target=server.run, daemon=True)
     thread.start()
     deadline = time.monotonic() + 20

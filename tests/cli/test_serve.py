@@ -38,3 +38,30 @@ def test_bad_port_is_bad_input(calls: list[dict]) -> None:
     r = run("serve", "--port", "eighty")
     assert r.code == 2 and len(r.err.splitlines()) == 1
     assert calls == []
+
+
+@pytest.fixture
+def full_calls(monkeypatch: pytest.MonkeyPatch) -> list[dict]:
+    """Like calls, also keeping the options only given when asked for."""
+    server = pytest.importorskip("app.web.server")
+    seen: list[dict] = []
+
+    def record(path, host, port, open_browser, **options):
+        seen.append({"path": path, "host": host, "port": port, "open_browser": open_browser,
+                     **options})
+
+    monkeypatch.setattr(server, "run", record)
+    return seen
+
+
+def test_data_dir_and_share(full_calls: list[dict], tmp_path) -> None:
+    # Reference: docs/cli.md and docs/sessions.md: --share listens on every address of the
+    # local network (0.0.0.0) unless --host says otherwise.
+    assert run("serve", "--data-dir", str(tmp_path), "--share", "--no-browser").code == 0
+    assert full_calls[-1] == {"path": None, "host": "0.0.0.0", "port": 8000,
+                              "open_browser": False, "data_dir": str(tmp_path), "share": True}
+    assert run("serve", "--share", "--host", "127.0.0.1").code == 0
+    assert full_calls[-1]["host"] == "127.0.0.1" and full_calls[-1]["share"] is True
+    assert run("serve").code == 0
+    assert full_calls[-1] == {"path": None, "host": "127.0.0.1", "port": 8000,
+                              "open_browser": True}

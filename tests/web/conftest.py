@@ -44,6 +44,15 @@ def to_csv(cols: dict) -> bytes:
     return out.getvalue().encode()
 
 
+@pytest.fixture(autouse=True)
+def data_home(tmp_path_factory: pytest.TempPathFactory, monkeypatch: pytest.MonkeyPatch):
+    """The default data folder (~/.rankscope) moved to a temporary one, for this process and
+    the servers it starts: tests never write under the home directory."""
+    home = tmp_path_factory.mktemp("rankscope-home")
+    monkeypatch.setenv("RANKSCOPE_HOME", str(home))
+    return home
+
+
 @pytest.fixture()
 def client() -> TestClient:
     return TestClient(create_app())

@@ -1,0 +1,102 @@
+"""The web app's sessions kept in the SQLite session store: loaded as Sessions, changed by version.
+
+Translates between app.store records and the web's records; judges and analyses nothing.
+"""
+
+from __future__ import annotations
+
+from pathlib import PurePath
+from typing import Any
+
+from app.store import Applied, Conflict, Created, SessionInfo, SessionNotFound, SessionState, Store
+from app.store import Change as StoredChange
+from app.store.store import MAX_TITLE
+from app.tables.table import Table
+from app.web import links
+from app.web.state import Change, PinnedFit, Session
+
+#: The settings key that holds the session's sealed links (see links.py).
+SEALED = "sealed_links"
+
+
+def as_session(state: SessionState) -> Session:
+    """The web's view of a saved session: the timeline with its pointer, the pins."""
+    pins = [PinnedFit(p.pin_id, p.name, int(p.meta.get("position", 0)), p.fit,
+                      list(p.meta.get("columns", [])), int(p.meta.get("rank", 0)), p.at)
+            for p in state.pins]
+    return Session(
+        session_id=state.session_id, table=state.table,
+        history=[Change(e.kind, e.payload) for e in state.timeline], position=state.position,
+        pinned=pins, created=state.created, version=state.version, title=state.title,
+        updated=state.updated)
+
+
+class StoredSessions:
+    """The SessionStore of the web app on top of app.store.Store (shared by threads)."""
+
+    def __init__(self, db: Store) -> None:
+        self.db = db
+        self._key = links.link_key(db.root)
+
+    # -- the SessionStore interface -------------------------------------------------------
+
+    def create(self, data: bytes, filename: str, table: Table | None = None
+               ) -> tuple[Session, Created]:
+        """A new session titled by the file's name; its links are sealed for the Share
+        button (the tokens themselves are returned only here)."""
+        title = PurePath(str(filename).replace("\\", "/")).name[:MAX_TITLE] or None
+        made = self.db.create_session(data, filename, title=title, table=table)
+        self.db.update_settings(made.session_id, {SEALED: links.seal(
+            self._key, made.session_id, made.edit_token, made.view_token)})
+        return as_session(self.db.load(made.session_id)), made
+
+    def get(self, session_id: str) -> Session | None:
+        try:
+            return as_session(self.db.load(session_id))
+        except SessionNotFound:
+            return None
+
+    def change(self, session_id: str, base_version: int, kind: str, payload: dict[str, Any],
+               change_id: str | None) -> Applied | Conflict:
+        return self.db.apply_change(session_id, base_version,
+                                    StoredChange(kind, payload, change_id))
+
+    def add_pin(self, session_id: str, label: str, fit: dict[str, Any], *, version: int,
+                position: int, columns: list[str], rank: int) -> PinnedFit:
+        pin = self.db.add_pin(session_id, fit, name=label, version=version,
+                              meta={"position": position, "columns": columns, "rank": rank})
+        return PinnedFit(pin.pin_id, pin.name, position, pin.fit, columns, rank, pin.at)
+
+    def remove_pin(self, session_id: str, pin_id: int) -> None:
+        self.db.remove_pin(session_id, pin_id)
+
+    # -- what the start page, sharing and the live feed need -------------------------------
+
+    def recent(self, limit: int = 50) -> list[SessionInfo]:
+        return self.db.list_recent(limit)
+
+    def rename(self, session_id: str, title: str) -> str:
+        return self.db.rename(session_id, title)
+
+    def delete(self, session_id: str) -> None:
+        self.db.delete(session_id)
+
+    def access(self, session_id: str, token: str | None) -> str | None:
+        return self.db.access(session_id, token)
+
+    def stamp(self, session_id: str) -> tuple[int, float] | None:
+        return self.db.stamp(session_id)
+
+    def entries(self, session_id: str) -> list[dict[str, Any]]:
+        """Every accepted change with its version and change id, oldest first."""
+        return [e.to_dict() for e in self.db.load(session_id).history]
+
+    def tokens(self, session_id: str) -> dict[str, str]:
+        """The session's tokens that can still be shown: unsealed and checked against the
+        store's hashes (a missing or damaged seal gives {})."""
+        opened = links.unseal(self._key, session_id,
+                              self.db.load(session_id).settings.get(SEALED))
+        if opened is None:
+            return {}
+        return {role: token for role, token in opened.items()
+                if self.db.access(session_id, token) == role}
