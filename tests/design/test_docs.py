@@ -1,4 +1,4 @@
-"""The README's recipe section against the code: every step and field documented, every example valid.
+"""The README's recipe section against the code: every step and field, every example valid.
 
 Reference: the document itself (the format users read) compared with steps.SPECS.
 """
