@@ -3,7 +3,6 @@ thread, and Debian's Chromium driven by Playwright (skipped without it, unless C
 
 from __future__ import annotations
 
-import os
 import socket
 import threading
 import time
@@ -58,24 +57,6 @@ def base_url() -> Iterator[str]:
     yield f"http://127.0.0.1:{port}"
     server.should_exit = True
     thread.join(timeout=10)
-
-
-@pytest.fixture(scope="session")
-def browser():
-    if not CHROMIUM.exists():
-        reason = f"{CHROMIUM} is missing (apt-get install chromium); browser tests need it"
-        if os.environ.get("CI"):
-            pytest.fail(reason)
-        pytest.skip(reason)
-    from playwright.sync_api import sync_playwright
-
-    with sync_playwright() as p:
-        b = p.chromium.launch(
-            executable_path=str(CHROMIUM),
-            args=["--headless", "--no-sandbox", "--disable-gpu", "--disable-background-networking"],
-        )
-        yield b
-        b.close()
 
 
 @pytest.fixture()

@@ -7,7 +7,6 @@ Chromium with every network request refused.
 
 from __future__ import annotations
 
-import os
 import re
 from html.parser import HTMLParser
 from pathlib import Path
@@ -127,37 +126,29 @@ def test_column_names_cannot_inject_markup() -> None:
     assert len(scripts) == 2
 
 
-def test_opens_offline_in_a_browser(report: tuple[str, dict], tmp_path: Path) -> None:
-    if not CHROMIUM.exists():
-        if os.environ.get("CI"):
-            pytest.fail(f"{CHROMIUM} is missing")
-        pytest.skip(f"{CHROMIUM} is missing")
-    from playwright.sync_api import sync_playwright
-
+def test_opens_offline_in_a_browser(report: tuple[str, dict], tmp_path: Path, browser) -> None:
     html, _ = report
     path = tmp_path / "report.html"
     path.write_text(html, encoding="utf-8")
     asked: list[str] = []
-    with sync_playwright() as p:
-        browser = p.chromium.launch(executable_path=str(CHROMIUM),
-                                    args=["--headless", "--no-sandbox", "--disable-gpu"])
-        page = browser.new_page()
+    # One shared Chromium (tests/conftest.py): Playwright allows one per thread.
+    page = browser.new_page()
 
-        def refuse(route) -> None:  # noqa: ANN001 - playwright's Route
-            asked.append(route.request.url)
-            if route.request.url.startswith("file://"):
-                route.continue_()
-            else:
-                route.abort()
+    def refuse(route) -> None:  # noqa: ANN001 - playwright's Route
+        asked.append(route.request.url)
+        if route.request.url.startswith("file://"):
+            route.continue_()
+        else:
+            route.abort()
 
-        page.route("**/*", refuse)
-        errors: list[str] = []
-        page.on("pageerror", lambda e: errors.append(str(e)))
-        page.goto(path.as_uri())
-        page.wait_for_function("document.querySelectorAll('.chart .main-svg').length >= 4",
-                               timeout=20_000)
-        drawn = page.eval_on_selector_all(".chart", "els => els.map(e => e.id)")
-        browser.close()
+    page.route("**/*", refuse)
+    errors: list[str] = []
+    page.on("pageerror", lambda e: errors.append(str(e)))
+    page.goto(path.as_uri())
+    page.wait_for_function("document.querySelectorAll('.chart .main-svg').length >= 4",
+                           timeout=20_000)
+    drawn = page.eval_on_selector_all(".chart", "els => els.map(e => e.id)")
+    page.close()
     # Reference: Chromium itself: the charts were drawn with every network request refused,
     # and the page asked for nothing but its own file.
     assert errors == []
