@@ -365,7 +365,7 @@
     draw("fig-inflation", figs.inflation);
     draw("fig-spectrum", figs.spectrum);
     draw("fig-ridge", figs.ridge);
-    if (!figs["heatmap-spearman"]) heatmapMethod = "pearson";
+    if (!figs["heatmap-spearman"] && !spearmanOnRequest()) heatmapMethod = "pearson";
     document.querySelectorAll("[data-heatmap-switch]").forEach((r) => {
       r.checked = r.value === heatmapMethod;
     });
@@ -375,8 +375,40 @@
   function drawHeatmap(figs) {
     const el = document.getElementById("fig-heatmap");
     if (!el) return;
+    if (heatmapMethod === "spearman" && !figs["heatmap-spearman"]) {
+      fetchSpearman(figs);
+      return;
+    }
     el.dataset.method = heatmapMethod;
     draw("fig-heatmap", figs["heatmap-" + heatmapMethod]);
+  }
+
+  // A refit made on the factor alone has no rank correlations (they need the rows): the
+  // Spearman switch then asks the server to compute them from the rows.
+  function spearmanOnRequest() {
+    return !!document.querySelector("[data-heatmap-switch][data-spearman-fetch]");
+  }
+
+  async function fetchSpearman(figs) {
+    const sid = sessionId();
+    const note = document.getElementById("spearman-note");
+    if (note) { note.hidden = false; note.textContent = "Computing Spearman correlations from the rows…"; }
+    try {
+      const response = await fetch("/api/s/" + sid + "/spearman", { headers: { Accept: "application/json" } });
+      const data = await readJson(response);
+      if (!response.ok || !data.figure) {
+        if (note) note.textContent = (data && data.error) || "Spearman correlations could not be computed.";
+        return;
+      }
+      if (sid !== sessionId()) return;
+      figs["heatmap-spearman"] = data.figure;
+      const holder = document.getElementById("figure-data");
+      if (holder) holder.textContent = JSON.stringify(figs);
+      if (note) note.textContent = data.note;
+      if (heatmapMethod === "spearman") drawHeatmap(figs);
+    } catch (e) {
+      if (note) note.textContent = "The server could not be reached: " + e.message;
+    }
   }
 
   // ---- sorting --------------------------------------------------------------------

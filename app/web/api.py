@@ -13,7 +13,7 @@ from fastapi import APIRouter, Body, File, Request, UploadFile
 from fastapi.responses import JSONResponse
 
 from app.design.names import quoted
-from app.report.figures import all_figures
+from app.report.figures import all_figures, correlation_heatmap
 from app.store import Applied, Conflict, SessionNotFound
 from app.tables.errors import InputError
 from app.tables.read import read_bytes
@@ -182,6 +182,16 @@ def diagnosis(request: Request, session_id: str) -> JSONResponse:
 def figures(request: Request, session_id: str) -> JSONResponse:
     bench = bench_of(request)
     return JSONResponse(plain(all_figures(bench.current(bench.session(session_id)).diagnosis)))
+
+
+@router.get("/s/{session_id}/spearman")
+def spearman_figure(request: Request, session_id: str) -> JSONResponse:
+    """The Spearman heatmap of the current state; when the refit was made on the factor
+    alone, the correlations are computed from the rows now, and the note says so."""
+    bench = bench_of(request)
+    session = bench.session(session_id)
+    diag, note = guarded("Spearman correlations", bench.spearman, session)
+    return JSONResponse(plain({"figure": correlation_heatmap(diag, "spearman"), "note": note}))
 
 
 @router.get("/s/{session_id}/history")

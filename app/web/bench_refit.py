@@ -1,4 +1,4 @@
-"""Benchmark: server-side time of one design change + refit, as a ratio to a full analysis.
+"""Benchmark: server time of a linear and a nonlinear design change + refit vs a full analysis.
 
 Times the same calls the web app makes (python -m app.web.bench_refit); asserts nothing.
 """
@@ -49,11 +49,12 @@ def full_analysis(path: Path, steps: list[dict]) -> None:
              groups=design.groups).to_dict()
 
 
-def measure(path: Path, response: str, toggle: str,
+def measure(path: Path, response: str, toggle: str, other: str,
             repeat: int) -> dict[str, tuple[float, float]]:
-    """Full analysis versus one change (drop `toggle`, then restore it, alternately) made
-    through the Workbench as the web app makes it (saved in a session store in a temporary
-    folder), with and without rendering the workspace fragment."""
+    """Full analysis versus one change made through the Workbench as the web app makes it
+    (saved in a session store in a temporary folder): a linear one (drop `toggle`, then
+    restore it, alternately: the factor path), with and without rendering the workspace
+    fragment, and a nonlinear one (a new product of `toggle` and `other`: the rebuild)."""
     steps = [{"step": "response", "column": response}]
     full = _best(lambda: full_analysis(path, steps), repeat)
     with tempfile.TemporaryDirectory() as folder, Store(folder) as store:
@@ -61,7 +62,8 @@ def measure(path: Path, response: str, toggle: str,
         session, _ = bench.start(path.read_bytes(), path.name)
         sid = session.session_id
         bench.apply(sid, Change("step", steps[0]))
-        state = {"dropped": False}
+        state = {"dropped": False, "products": 0}
+        paths: set[str] = set()
 
         def change(render: bool) -> None:
             kind = "restore" if state["dropped"] else "drop"
@@ -69,12 +71,26 @@ def measure(path: Path, response: str, toggle: str,
             state["dropped"] = not state["dropped"]
             now = bench.session(sid)
             result = bench.current(now)
+            paths.add(f"linear: {result.path}")
             if render:
                 workspace_html(bench, now, result)
 
+        def nonlinear() -> None:
+            state["products"] += 1
+            name = f"{toggle}_by_{other}_{state['products']}"
+            bench.apply(sid, Change("step", {"step": "product", "columns": [toggle, other],
+                                             "name": name}))
+            paths.add(f"nonlinear: {bench.current(bench.session(sid)).path}")
+
+        change(False)  # the first change after the start builds the engine: not timed
+        change(False)
         refit = _best(lambda: change(False), repeat)
         refit_render = _best(lambda: change(True), repeat)
-    return {"full": full, "refit": refit, "refit_render": refit_render}
+        rebuild = _best(nonlinear, repeat)
+        if state["dropped"]:
+            change(False)
+    print(f"  (paths taken: {', '.join(sorted(paths))})", flush=True)
+    return {"full": full, "refit": refit, "refit_render": refit_render, "rebuild": rebuild}
 
 
 def generated_table(folder: Path, rows: int, cols: int, seed: int = 1) -> Path:
@@ -97,8 +113,9 @@ def generated_table(folder: Path, rows: int, cols: int, seed: int = 1) -> Path:
 def report(name: str, t: dict[str, tuple[float, float]]) -> str:
     lines = [f"{name}:"]
     labels = {"full": "full analysis (read + recipe + diagnose)",
-              "refit": "design change + refit",
-              "refit_render": "design change + refit + page fragment"}
+              "refit": "linear change + refit (factor path)",
+              "refit_render": "linear change + refit + page fragment",
+              "rebuild": "nonlinear change + refit (rebuild path)"}
     for key, label in labels.items():
         wall, cpu = t[key]
         ratio = "" if key == "full" else (f"  ratio {wall / t['full'][0]:.2f} wall, "
@@ -113,11 +130,11 @@ def main(argv: list[str] | None = None) -> int:
     parser.add_argument("--cols", type=int, default=100)
     parser.add_argument("--repeat", type=int, default=3)
     args = parser.parse_args(argv)
-    print(report(f"demo {DEMO.name}", measure(DEMO, "energy_kwh", "door_openings",
-                                              args.repeat)), flush=True)
+    print(report(f"demo {DEMO.name}", measure(DEMO, "energy_kwh", "pallets_in",
+                                              "outdoor_temp_c", args.repeat)), flush=True)
     with tempfile.TemporaryDirectory() as tmp:
         path = generated_table(Path(tmp), args.rows, args.cols)
-        t = measure(path, "y", "x10", args.repeat)
+        t = measure(path, "y", "x10", "x11", args.repeat)
         print(report(f"generated {args.rows:,} × {args.cols} (Parquet)", t), flush=True)
     return 0
 

@@ -33,7 +33,7 @@ def file_name(session: Session, kind: str) -> str:
 
 def report(bench: Workbench, session: Session) -> str:
     """The self-contained report of the current state (plotly.js inlined)."""
-    analysis = bench.current(session)
+    analysis = bench.with_rows(session)
     return render_html(
         analysis.diagnosis, title=session.title or session.table.source,
         source=session.table.source, rows=(analysis.rows_used, analysis.rows_total),

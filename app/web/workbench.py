@@ -10,13 +10,13 @@ import math
 import threading
 import time
 from collections import OrderedDict
-from dataclasses import dataclass, replace
+from dataclasses import replace
 from typing import Any
 
 from app.core import diagnose
 from app.design.apply_roles import levels_of
 from app.design.bench import DROPPED, PREDICTOR, RESPONSE
-from app.design.design import INTERCEPT, Design
+from app.design.design import Design
 from app.design.names import quoted
 from app.design.recipe import Recipe
 from app.design.replay import trace_design
@@ -24,60 +24,16 @@ from app.design.steps import describe_step
 from app.store.records import Applied, Conflict, Created
 from app.tables.errors import InputError
 from app.tables.table import Table
+from app.web import refit
 from app.web.state import Change, PinnedFit, Session, SessionStore
+from app.web.workbench_types import LEVEL_MENU_LIMIT, Analysis, Settings, WorkingColumn
 
-#: Categorical columns with more levels than this get no level chooser (a free-text
-#: field instead): a menu of thousands of levels helps nobody.
-LEVEL_MENU_LIMIT = 60
+__all__ = ["LEVEL_MENU_LIMIT", "Analysis", "Settings", "UnknownSession", "WorkingColumn",
+           "Workbench", "analyse", "settings_of"]
 
 
 class UnknownSession(KeyError):
     """No session has this id (it was never made, or it was deleted)."""
-
-
-@dataclass(frozen=True)
-class Settings:
-    """What the changes in force add up to: recipe steps, basis priority, ridge penalty."""
-
-    steps: tuple[str, ...]  # each step as canonical JSON, so Settings is hashable
-    keep: tuple[str, ...]
-    ridge: float | None
-
-    @property
-    def recipe(self) -> Recipe:
-        return Recipe([json.loads(s) for s in self.steps])
-
-
-@dataclass(frozen=True)
-class WorkingColumn:
-    """A column of the recipe's workbench as the controls need it."""
-
-    name: str
-    kind: str
-    role: str  # predictor | dropped | response
-    reference: str | None
-    levels: list[str] | None  # categorical only, None when there are too many to list
-
-
-@dataclass(frozen=True)
-class Analysis:
-    """One diagnosed state of a session: the design's summary, the diagnosis as a dict,
-    the workbench columns, and how long the build and diagnosis took (seconds)."""
-
-    settings: Settings
-    columns: list[str]
-    response: str | None
-    groups: dict[str, list[str]]
-    rows_total: int
-    rows_used: int
-    notes: list[str]
-    diagnosis: dict[str, Any]
-    working: list[WorkingColumn]
-    seconds: float
-
-    @property
-    def has_intercept(self) -> bool:
-        return INTERCEPT in self.columns
 
 
 def settings_of(changes: list[Change]) -> Settings:
@@ -184,6 +140,8 @@ class Workbench:
         self.store = store
         self._cache: OrderedDict[tuple[str, int, Settings], Analysis] = OrderedDict()
         self._cache_size = cache_size
+        # The edit engines of recent recipe prefixes, so the next step is one edit away.
+        self._engines: OrderedDict[tuple[str, int, tuple[str, ...]], refit.Held] = OrderedDict()
         self._guard = threading.Lock()
 
     def session(self, session_id: str) -> Session:
@@ -201,12 +159,59 @@ class Workbench:
             if hit is not None:
                 self._cache.move_to_end(key)
                 return hit
-        result = analyse(session.table, settings)
+        result = self._analyse(session, settings)
         with self._guard:
             self._cache[key] = result
             while len(self._cache) > self._cache_size:
                 self._cache.popitem(last=False)
         return result
+
+    def _held(self, session: Session, steps: tuple[str, ...]) -> refit.Held | None:
+        with self._guard:
+            held = self._engines.get((session.session_id, id(session.table), steps))
+            if held is not None:
+                self._engines.move_to_end((session.session_id, id(session.table), steps))
+            return held
+
+    def _analyse(self, session: Session, settings: Settings) -> Analysis:
+        """Through a cached engine when one is a step (or only keep/ridge) away, else one
+        build from the rows; either way the engine of these steps is kept for the next."""
+        table, steps = session.table, settings.steps
+        held = self._held(session, steps)
+        if held is not None:  # only the keep list or the ridge penalty changed
+            return refit.on_factor(held, settings)
+        parent = self._held(session, steps[:-1]) if steps else None
+        if parent is not None:
+            result, held = refit.after_step(parent, table, settings, json.loads(steps[-1]))
+        else:
+            result, held = refit.from_rows(table, settings)
+        with self._guard:
+            self._engines[(session.session_id, id(table), steps)] = held
+            while len(self._engines) > self._cache_size:
+                self._engines.popitem(last=False)
+        return result
+
+    def with_rows(self, session: Session) -> Analysis:
+        """The current analysis as diagnosed with the rows (residuals of relations on the
+        rows, Spearman): for the report, which lists them."""
+        result = self.current(session)
+        return result if result.path == "rows" else analyse(session.table, result.settings)
+
+    def spearman(self, session: Session) -> tuple[dict[str, Any], str | None]:
+        """The current diagnosis with its Spearman matrix, computed from the rows when the
+        factor path left it out (the cached analysis then keeps it), and a note saying so."""
+        result = self.current(session)
+        corr = result.diagnosis["correlations"]
+        if corr["spearman"] is not None or len(corr["columns"]) < 2:
+            return result.diagnosis, None
+        matrix, note = refit.spearman_from_rows(session.table, result.settings,
+                                                corr["columns"])
+        diag = {**result.diagnosis, "correlations": {**corr, "spearman": matrix}}
+        key = (session.session_id, id(session.table), result.settings)
+        with self._guard:
+            if key in self._cache:
+                self._cache[key] = replace(result, diagnosis=diag)
+        return diag, note
 
     def current(self, session: Session) -> Analysis:
         return self.analysis_at(session, session.position)

@@ -1,0 +1,162 @@
+"""The web app's refits on the factor give what a replay of the recipe from scratch gives.
+
+Each linear change goes through the API; its analysis is compared with analyse() of the same
+settings (the from-scratch replay on the rows) and the fit with numpy.linalg.lstsq.
+"""
+
+from __future__ import annotations
+
+import io
+
+import numpy as np
+import pytest
+from fastapi.testclient import TestClient
+
+from app.core.diagnosis import Diagnosis
+from app.design.recipe import build_design
+from app.web.workbench import Analysis, analyse
+from tests.scale.compare import assert_same, close
+from tests.web.conftest import step, to_csv
+
+
+def units_of(table, settings) -> dict[str, float]:
+    """||y|| / ||x_j|| per design column: the natural size of its coefficient."""
+    d = build_design(table, settings.recipe)
+    y = np.linalg.norm(d.y) if d.y is not None else 1.0
+    return {c: y / max(np.linalg.norm(d.X[:, j]), 1e-300) for j, c in enumerate(d.columns)}
+
+
+def check(client: TestClient, sid: str, table) -> Analysis:
+    bench = client.app.state.bench
+    session = bench.session(sid)
+    got = bench.current(session)
+    # reference: the from-scratch replay of the same settings on the rows
+    ref = analyse(session.table, got.settings)
+    a, b = got.diagnosis, ref.diagnosis
+    # rank, basis, relations, condition numbers and indices, VIFs, GVIFs and the fit, to 10
+    # digits (quantities at rounding level compared only to the precision they have)
+    assert_same(Diagnosis(**a), Diagnosis(**b), units_of(session.table, got.settings))
+    ca, cb = a["correlations"], b["correlations"]
+    assert ca["columns"] == cb["columns"] and ca["order"] == cb["order"]
+    assert close(ca["pearson"], cb["pearson"], 1e-9)
+    if ca["spearman"] is not None:  # carried over: it must be the rows' matrix
+        assert close(ca["spearman"], cb["spearman"], 1e-9)
+    assert (a["ridge"] is None) == (b["ridge"] is None)
+    if b["ridge"] is not None and not b["rank_note"]:
+        assert close(a["ridge"]["penalties"], b["ridge"]["penalties"], 1e-9)
+        for c, path in b["ridge"]["coefficients"].items():
+            assert close(a["ridge"]["coefficients"][c], path, 1e-9), c
+    assert a["notes"] == b["notes"]
+    assert (got.columns, got.response, got.groups) == (ref.columns, ref.response, ref.groups)
+    assert (got.rows_total, got.rows_used, got.notes) == (ref.rows_total, ref.rows_used,
+                                                          ref.notes)
+    assert got.working == ref.working
+    return got
+
+
+@pytest.fixture()
+def gappy() -> dict:
+    """The units table with a few missing hours and regions (rows are deleted)."""
+    from tests.web.conftest import units_table
+
+    cols = units_table()
+    hours = [str(v) for v in cols["hours"]]
+    region = list(cols["region"])
+    for i in (3, 17, 41):
+        hours[i] = ""
+    region[8] = ""
+    return {**cols, "hours": hours, "region": region}
+
+
+def upload(client: TestClient, cols: dict) -> str:
+    out = io.StringIO()
+    names = list(cols)
+    out.write(",".join(names) + "\n")
+    for i in range(len(cols[names[0]])):
+        out.write(",".join(str(cols[c][i]) for c in names) + "\n")
+    r = client.post("/api/upload", files={"file": ("g.csv", out.getvalue().encode(),
+                                                   "text/csv")})
+    assert r.status_code == 201, r.text
+    return r.json()["session"]
+
+
+LINEAR = [
+    ("step", {"step": "response", "column": "load"}),
+    ("step", {"step": "drop", "column": "temp_f"}),
+    ("step", {"step": "center", "column": "mass_lb"}),
+    ("keep", {"column": "mass_kg"}),
+    ("step", {"step": "restore", "column": "temp_f"}),
+    ("ridge", {"penalty": 0.3}),
+    ("step", {"step": "standardize", "column": "temp_c", "keep": True}),
+    ("step", {"step": "multiply", "column": "mass_kg", "by": -2.5}),
+    ("step", {"step": "combine", "columns": ["temp_f", "hours"], "method": "mean",
+              "name": "mixed"}),
+    ("step", {"step": "intercept", "include": False}),
+    ("step", {"step": "unit_length", "column": "mixed"}),
+]
+
+
+def test_linear_changes_on_the_factor_equal_the_replay(client, table) -> None:
+    r = client.post("/api/upload", files={"file": ("units.csv", to_csv(table), "text/csv")})
+    sid = r.json()["session"]
+    paths = [check(client, sid, table).path]
+    for kind, payload in LINEAR:
+        assert step(client, sid, payload, kind).status_code == 200
+        paths.append(check(client, sid, table).path)
+    assert paths.count("factor") >= len(LINEAR) - 1  # only changes of wording rebuild
+
+
+def test_fit_on_the_factor_matches_lstsq(client, sid, table) -> None:
+    step(client, sid, {"step": "drop", "column": "temp_f"})
+    step(client, sid, {"step": "drop", "column": "mass_kg"})
+    step(client, sid, {"step": "center", "column": "hours"})
+    got = check(client, sid, table)
+    assert got.path == "factor"
+    hours = np.asarray(table["hours"], float)
+    X = np.column_stack([np.ones(60), table["temp_c"], table["mass_lb"], hours - hours.mean()]
+                        + [np.asarray(table["region"]) == lv for lv in ("south", "west")])
+    beta = np.linalg.lstsq(X, np.asarray(table["load"]), rcond=None)[0]
+    coef = got.diagnosis["fit"]["coefficients"]
+    names = ["(intercept)", "temp_c", "mass_lb", "hours (centered)", "region[south]",
+             "region[west]"]
+    # reference: numpy.linalg.lstsq on the same design built by hand
+    assert [coef[n] for n in names] == pytest.approx(beta, rel=1e-9)
+
+
+def test_missing_values_and_categorical_changes(client, gappy) -> None:
+    sid = upload(client, gappy)
+    changes = [
+        {"step": "response", "column": "load"},
+        {"step": "drop", "column": "mass_kg"},
+        {"step": "indicators", "column": "region", "reference": "west"},
+        {"step": "drop", "column": "region"},
+        {"step": "multiply", "column": "temp_c", "by": 3.0},
+        {"step": "missing", "column": "hours", "policy": "drop_column"},
+        {"step": "restore", "column": "region"},
+    ]
+    for payload in changes:
+        assert step(client, sid, payload).status_code == 200
+        got = check(client, sid, gappy)
+        # reference: the CSV has 60 rows, 4 of them with a blank hours or region cell
+        assert got.rows_total == 60
+
+
+def test_spearman_on_request_is_the_rows(client, sid, table) -> None:
+    from scipy.stats import spearmanr
+
+    step(client, sid, {"step": "center", "column": "hours"})
+    bench = client.app.state.bench
+    got = bench.current(bench.session(sid))
+    assert got.path == "factor" and got.diagnosis["correlations"]["spearman"] is None
+    figs = client.get(f"/api/s/{sid}/figures").json()
+    assert figs["heatmap-spearman"] is None and figs["heatmap-pearson"] is not None
+    page = client.get(f"/s/{sid}/inspect").text
+    assert "data-spearman-fetch" in page
+    body = client.get(f"/api/s/{sid}/spearman").json()
+    assert "computed from the rows" in body["note"]
+    z, labels = body["figure"]["data"][0]["z"], body["figure"]["data"][0]["x"]
+    i, j = labels.index("hours (centered)"), labels.index("temp_c")
+    # reference: scipy.stats.spearmanr on the uploaded columns (centering keeps ranks)
+    assert z[i][j] == pytest.approx(spearmanr(table["hours"], table["temp_c"])[0], abs=1e-9)
+    # the fetched matrix stays with the analysis
+    assert client.get(f"/api/s/{sid}/figures").json()["heatmap-spearman"] is not None
