@@ -318,7 +318,16 @@ def run_check(args: argparse.Namespace) -> int:
 
 
 def run_serve(args: argparse.Namespace) -> int:
-    if args.file is not None and not Path(args.file).is_file():
+    if args.engine == "dask":
+        if args.file is None or not Path(args.file).is_dir():
+            raise InputError("the Dask engine serves a folder of Parquet files",
+                             args.file or "", "Give the dataset's folder")
+        if not args.response:
+            raise InputError("the Dask engine needs a response column", "",
+                             "Name it with --response COL")
+    elif args.scheduler is not None:
+        raise InputError("--scheduler is for the Dask engine", "", "Add --engine dask")
+    elif args.file is not None and not Path(args.file).is_file():
         raise InputError("the file does not exist", args.file, "Check the path")
     from app.web.server import run  # the web stack loads only when serving
 
@@ -331,6 +340,8 @@ def run_serve(args: argparse.Namespace) -> int:
         extra["data_dir"] = args.data_dir
     if args.share:
         extra["share"] = True
+    if args.engine == "dask":
+        extra.update(engine="dask", scheduler=args.scheduler, response=args.response)
     run(args.file, host=host, port=args.port, open_browser=not args.no_browser, **extra)
     return EXIT_OK
 
@@ -385,6 +396,14 @@ def build_parser() -> Parser:
     serve.add_argument("--share", action="store_true",
                        help="listen on the local network and print share links; every "
                             "request then needs a link's key")
+    serve.add_argument("--engine", choices=("memory", "dask"), default="memory",
+                       help="dask: FILE is a folder of Parquet files, reduced once on a Dask "
+                            "cluster; the session analyses that factor (needs --response)")
+    serve.add_argument("--scheduler", metavar="ADDRESS", default=None,
+                       help="the Dask scheduler's address (default: a local cluster on "
+                            "this computer)")
+    serve.add_argument("--response", metavar="COL", default=None,
+                       help="the response column (y); required with --engine dask")
     serve.set_defaults(run=run_serve)
     return parser
 

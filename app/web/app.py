@@ -46,7 +46,8 @@ def _throwaway_store(app: FastAPI) -> Store:
 
 
 def create_app(store: Store | None = None, *, share: bool = False,
-               public_url: str | None = None) -> FastAPI:
+               public_url: str | None = None,
+               bench: type[Workbench] = Workbench) -> FastAPI:
     """A new app on the given session store (default: a throwaway one).
 
     share: every request needs a token (the owner key, or a session's edit or view
@@ -54,11 +55,12 @@ def create_app(store: Store | None = None, *, share: bool = False,
     public_url: the address others reach this server by, used in share links (default:
     the address of the request asking for them).
     app.state.owner_key opens the start page and every session when sharing.
+    bench: the Workbench class (a ReducedBench when serving a dataset reduced on Dask).
     """
     app = FastAPI(title="rankscope", docs_url=None, redoc_url=None, openapi_url=None)
     db = store if store is not None else _throwaway_store(app)
     app.state.sessions = StoredSessions(db)
-    app.state.bench = Workbench(app.state.sessions)
+    app.state.bench = bench(app.state.sessions)
     app.state.live = Hub(app.state.sessions.stamp)
     app.state.share = share
     app.state.public_url = public_url

@@ -29,6 +29,8 @@ def download(request: Request, session_id: str, kind: str) -> Response:
         raise InputError(f"there is no download called {kind!r}", "download",
                          "Use one of: " + ", ".join(exports.KINDS))
     session = bench_of(request).session(session_id)
+    if kind in ("design", "script"):
+        bench_of(request).needs_rows(session, f"the {kind} download")
     headers = _attachment(exports.file_name(session, kind))
     media = exports.KINDS[kind][1]
     if kind == "design":

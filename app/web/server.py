@@ -63,20 +63,32 @@ def base_url(host: str, port: int) -> str:
 
 def run(path: str | os.PathLike | None, host: str = "127.0.0.1", port: int = 8765,
         open_browser: bool = True, *, data_dir: str | os.PathLike | None = None,
-        share: bool = False) -> None:
+        share: bool = False, engine: str = "memory", scheduler: str | None = None,
+        response: str | None = None) -> None:
     """Serve the app with sessions kept in data_dir (default ~/.rankscope). With a path,
     read it first (an InputError is raised before anything is saved or listens) and open
     it as a new session. share, or any address beyond this computer, makes every request
-    need a link's token; the links are printed."""
+    need a link's token; the links are printed. engine "dask": path is a Parquet dataset
+    folder, reduced once on Dask (scheduler: a cluster's address, None: a local cluster)
+    with `response` as y; its session analyses that factor."""
     table = data = None
-    if path is not None:
+    if path is not None and engine != "dask":
         name = Path(path).name
         table = read_table(path, name=name)
         data = Path(path).read_bytes()
     share = share or not is_loopback(host)
-    store = Store(data_dir if data_dir is not None else default_root())
     base = base_url(reachable_host(host), port)
-    app = create_app(store, share=share, public_url=base if share else None)
+    public_url = base if share else None
+    made = None
+    if engine == "dask":
+        from app.web.dask_app import create_dask_app  # dask loads only for this engine
+
+        app, _, made = create_dask_app(path or "", response, scheduler, data_dir,
+                                       share=share, public_url=public_url)
+        store: Store = app.state.sessions.db
+    else:
+        store = Store(data_dir if data_dir is not None else default_root())
+        app = create_app(store, share=share, public_url=public_url)
     lines = []
     start = f"{base}/"
     if share:
@@ -85,7 +97,8 @@ def run(path: str | os.PathLike | None, host: str = "127.0.0.1", port: int = 876
                      "session)")
     if data is not None and table is not None:
         session, made = app.state.bench.start(data, table.source, table)
-        sid = session.session_id
+    if made is not None:
+        sid = made.session_id
         # Your own browser opens the session with the key it already has: the owner key
         # when sharing (so the start page opens too), else the session's edit key.
         start = link(base, sid, app.state.owner_key if share else made.edit_token)

@@ -216,6 +216,10 @@ class Workbench:
     def current(self, session: Session) -> Analysis:
         return self.analysis_at(session, session.position)
 
+    def needs_rows(self, session: Session, what: str) -> None:
+        """Raise InputError when `what` needs rows this session does not hold (every
+        session here holds its table; see reduced_bench.py)."""
+
     def start(self, data: bytes, filename: str, table: Table | None = None
               ) -> tuple[Session, Created]:
         """A new session on an uploaded file (table: already read from exactly these
