@@ -104,6 +104,9 @@ def priority_order(columns: list[str], keep: list[str] | None) -> list[int]:
     return first + [j for j in range(len(columns)) if j not in first]
 
 
+# Everything in diagnose_factor works on (p, p) matrices: BLAS threads only add contention
+# there (measured: a 100×100 SVD 50× slower with 2 threads on a busy 2-core machine).
+@threadpool_limits.wrap(limits=1, user_api="blas")
 def diagnose_factor(
     F: Factorization,
     *,
@@ -123,30 +126,6 @@ def diagnose_factor(
     default σ_max·max(n, p)·eps. keep: columns to keep in the basis when columns are
     exactly dependent (the others are written in terms of them).
     """
-    # Everything below works on (p, p) matrices: BLAS threads only add contention there
-    # (measured: a 100×100 SVD 50× slower with 2 threads on a busy 2-core machine).
-    with threadpool_limits(limits=1, user_api="blas"):
-        return _diagnose_small(
-            F, response=response, groups=groups, keep=keep, tol=tol,
-            ridge_penalty=ridge_penalty, ridge_grid=ridge_grid, index_threshold=index_threshold,
-            proportion_threshold=proportion_threshold, rank_correlation=rank_correlation,
-        )
-
-
-def _diagnose_small(
-    F: Factorization,
-    *,
-    response: str | None = None,
-    groups: dict[str, list[str]] | None = None,
-    keep: list[str] | None = None,
-    tol: float | None = None,
-    ridge_penalty: float | None = None,
-    ridge_grid: np.ndarray | None = None,
-    index_threshold: float = cnd.INDEX_THRESHOLD,
-    proportion_threshold: float = cnd.PROPORTION_THRESHOLD,
-    rank_correlation: bool = True,
-) -> Diagnosis:
-    """The body of diagnose_factor, run with BLAS limited to one thread."""
     names = F.columns
     p = F.p
     notes = list(F.notes)
