@@ -8,6 +8,7 @@ store's history read back, RFC 9110 for status codes, and the recipe replayed by
 
 from __future__ import annotations
 
+import re
 import threading
 import time
 
@@ -101,7 +102,9 @@ def test_two_clients_200_changes_each(serve) -> None:
         ha, hb = a.get(f"/api/s/{sid}/history").json(), b.get(f"/api/s/{sid}/history").json()
     # Both clients converge on one view: the same version and the same recipe.
     assert (ha["version"], ha["recipe"]) == (hb["version"], hb["recipe"])
-    entries = [e for e in ha["entries"] if e["change_id"][0] in "AB"]
+    # The clients' ids are "A-<i>" / "B-<i>"; the server's own ids are random and may also
+    # start with A or B, so match the whole shape.
+    entries = [e for e in ha["entries"] if re.fullmatch(r"[AB]-\d+", e["change_id"] or "")]
     saved = {e["change_id"]: e["version"] for e in entries}
     told = {r["id"]: r["body"]["saved_as"] for r in every
             if r["status"] == 200 and not r["body"]["repeated"]}
