@@ -327,6 +327,13 @@ def run_serve(args: argparse.Namespace) -> int:
                              "Name it with --response COL")
     elif args.scheduler is not None:
         raise InputError("--scheduler is for the Dask engine", "", "Add --engine dask")
+    elif args.engine == "stream":
+        if args.file is None or not Path(args.file).is_file():
+            raise InputError("the stream engine serves one CSV/TSV (.gz) or Parquet file",
+                             args.file or "", "Give the file's path")
+        if not args.response:
+            raise InputError("the stream engine needs a response column", "",
+                             "Name it with --response COL")
     elif args.file is not None and not Path(args.file).is_file():
         raise InputError("the file does not exist", args.file, "Check the path")
     from app.web.server import run  # the web stack loads only when serving
@@ -342,6 +349,8 @@ def run_serve(args: argparse.Namespace) -> int:
         extra["share"] = True
     if args.engine == "dask":
         extra.update(engine="dask", scheduler=args.scheduler, response=args.response)
+    elif args.engine == "stream":
+        extra.update(engine="stream", response=args.response)
     run(args.file, host=host, port=args.port, open_browser=not args.no_browser, **extra)
     return EXIT_OK
 
@@ -396,14 +405,17 @@ def build_parser() -> Parser:
     serve.add_argument("--share", action="store_true",
                        help="listen on the local network and print share links; every "
                             "request then needs a link's key")
-    serve.add_argument("--engine", choices=("memory", "dask"), default="memory",
+    serve.add_argument("--engine", choices=("memory", "dask", "stream"), default="memory",
                        help="dask: FILE is a folder of Parquet files, reduced once on a Dask "
-                            "cluster; the session analyses that factor (needs --response)")
+                            "cluster; stream: FILE is read block by block with a progress "
+                            "page and a Cancel button; either way the session analyses the "
+                            "reduced factor (needs --response)")
     serve.add_argument("--scheduler", metavar="ADDRESS", default=None,
                        help="the Dask scheduler's address (default: a local cluster on "
                             "this computer)")
     serve.add_argument("--response", metavar="COL", default=None,
-                       help="the response column (y); required with --engine dask")
+                       help="the response column (y); required with --engine dask or "
+                            "stream")
     serve.set_defaults(run=run_serve)
     return parser
 

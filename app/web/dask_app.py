@@ -10,12 +10,10 @@ from pathlib import Path
 from fastapi import FastAPI
 
 from app.scale.dask_engine import dask_stream, pieces
-from app.store import Store, default_root
 from app.store.records import Created
 from app.tables.errors import InputError
-from app.web.app import create_app
 from app.web.reduced import Reduced
-from app.web.reduced_bench import ReducedBench, reduced_check
+from app.web.reduced_app import create_reduced_app, start_reduced
 from app.web.state import Session
 
 
@@ -40,7 +38,6 @@ def create_dask_app(folder: str | os.PathLike, response: str | None,
     response raises InputError before anything is saved. The caller closes the store
     (app.state.sessions.db)."""
     reduced = reduce_dataset(folder, response, scheduler)
-    store = Store(data_dir if data_dir is not None else default_root(), check=reduced_check)
-    app = create_app(store, share=share, public_url=public_url, bench=ReducedBench)
-    session, made = app.state.bench.start_reduced(reduced)
+    app = create_reduced_app(data_dir, share=share, public_url=public_url)
+    session, made = start_reduced(app, reduced)
     return app, session, made

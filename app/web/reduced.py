@@ -1,5 +1,5 @@
-"""Analyses of a session reduced on Dask: the dataset's factor, a keep list, a ridge penalty and
-column drops (hidden on the factor). Reads no rows; refuses every change that would need them.
+"""Analyses of a session reduced on Dask or by streaming its file: the dataset's factor, a keep
+list, a ridge penalty and column drops (hidden on the factor). Reads no rows; refuses the rest.
 """
 
 from __future__ import annotations
@@ -17,14 +17,15 @@ from app.tables.errors import InputError
 from app.web.workbench_types import Analysis, Settings, WorkingColumn
 
 #: What a refused change says, word for word.
-ROWS_NEEDED = ("this session was reduced on Dask; changes that need the rows are not "
-               "available")
+ROWS_NEEDED = ("this session was reduced to its factor and the rows stay in the data; changes "
+               "that need the rows are not available")
 
 #: What the page says about everything a factor without rows cannot give.
-NO_ROWS_NOTE = ("Reduced on Dask: this analysis comes from the dataset's small factor, not from "
-                "its rows, so there are no Spearman correlations and no residuals of the "
-                "relations on the rows. Keep choices, the ridge penalty and dropping or "
-                "restoring a column work; other changes need the rows and are not available.")
+NO_ROWS_NOTE = ("Reduced without holding the rows: this analysis comes from the dataset's "
+                "small factor, not from its rows, so there are no Spearman correlations and "
+                "no residuals of the relations on the rows. Keep choices, the ridge penalty "
+                "and dropping or restoring a column work; other changes need the rows and are "
+                "not available.")
 
 #: The design steps a reduced session can take on its factor alone.
 FACTOR_STEPS = ("drop", "restore")
@@ -34,13 +35,15 @@ FACTOR_STEPS = ("drop", "restore")
 class Reduced:
     """A dataset reduced once: its factor and what the stream learned about its design.
 
-    folder: the dataset folder as given. files: how many Parquet files it holds.
+    folder: the dataset folder (or streamed file) as given. files: how many files it holds.
+    engine: how it was reduced, "dask" or "stream".
     """
 
     F: Factorization
     info: StreamInfo
     folder: str
     files: int
+    engine: str = "dask"
 
     def members(self, column: str) -> list[str]:
         """The design columns a source column shows as (its indicators, or itself)."""

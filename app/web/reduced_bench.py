@@ -1,5 +1,5 @@
-"""The workbench of an app serving a dataset reduced on Dask: its session analyses the factor,
-other sessions go through the usual rows. Holds factors in memory; no linear algebra here.
+"""The workbench of an app serving a reduced dataset (Dask or streamed): its session analyses
+the factor, other sessions the usual rows. Holds factors in memory; no linear algebra here.
 """
 
 from __future__ import annotations
@@ -20,13 +20,24 @@ from app.web.reduced import FACTOR_STEPS, NO_ROWS_NOTE, Reduced, reduced_analysi
 from app.web.state import Session, SessionStore
 from app.web.workbench import Analysis, Settings, Workbench
 
-#: Ends the file name of a reduced session, so a later run can tell its sessions apart.
-MARK = " (reduced on Dask)"
+#: Ends the file name of a reduced session, by engine, so a later run can tell them apart.
+MARKS = {"dask": " (reduced on Dask)", "stream": " (reduced by streaming)"}
+MARK = MARKS["dask"]
+#: How to serve a reduced session again, by engine.
+AGAIN = {"dask": "rankscope serve DIR --engine dask",
+         "stream": "rankscope serve FILE --engine stream"}
+
+
+def engine_of(table: Table) -> str | None:
+    """The engine that reduced the row-less table the store keeps (None: not reduced)."""
+    if table.n_rows:
+        return None
+    return next((e for e, mark in MARKS.items() if table.source.endswith(mark)), None)
 
 
 def is_reduced(table: Table) -> bool:
     """True for the row-less table the store keeps for a reduced session."""
-    return table.n_rows == 0 and table.source.endswith(MARK)
+    return engine_of(table) is not None
 
 
 def reduced_check(table: Table, before: Folded, change: StoredChange) -> None:
@@ -43,9 +54,14 @@ def _schema(reduced: Reduced) -> Table:
     """A table with the dataset's columns and kinds and no rows: what the store keeps."""
     frame = pd.DataFrame({c: pd.Series([], dtype="float64") for c in reduced.info.kinds})
     rows = reduced.info.layout.rows_total
-    note = (f"Reduced on Dask from {rows:,} rows in {reduced.files} Parquet file(s) in "
-            f"{reduced.folder}; the rows stay there.")
-    return Table(frame, dict(reduced.info.kinds), Path(reduced.folder).name + MARK, [note])
+    if reduced.engine == "stream":
+        note = (f"Reduced by streaming {rows:,} rows of {reduced.folder} block by block; "
+                "the rows stay there.")
+    else:
+        note = (f"Reduced on Dask from {rows:,} rows in {reduced.files} Parquet file(s) in "
+                f"{reduced.folder}; the rows stay there.")
+    name = Path(reduced.folder).name + MARKS[reduced.engine]
+    return Table(frame, dict(reduced.info.kinds), name, [note])
 
 
 class ReducedBench(Workbench):
@@ -58,7 +74,7 @@ class ReducedBench(Workbench):
     def start_reduced(self, reduced: Reduced) -> tuple[Session, Created]:
         """A new session on a reduced dataset; its design is the one the reduction built."""
         table = _schema(reduced)
-        manifest = {"dask_dataset": str(Path(reduced.folder).resolve()),
+        manifest = {f"{reduced.engine}_dataset": str(Path(reduced.folder).resolve()),
                     "rows": reduced.info.layout.rows_total, "columns": reduced.F.columns,
                     "response": reduced.info.response}
         data = json.dumps(manifest, sort_keys=True).encode()
@@ -70,10 +86,11 @@ class ReducedBench(Workbench):
         """The factor of a reduced session; an InputError when it was reduced in an
         earlier run (only the dataset's schema was kept)."""
         held = self._reduced.get(session.session_id)
-        if held is None and is_reduced(session.table):
-            raise InputError("this session was reduced on Dask in an earlier run; its factor "
-                             "is not kept", session.table.source,
-                             "Serve the dataset again with rankscope serve DIR --engine dask")
+        engine = engine_of(session.table) if held is None else None
+        if engine is not None:
+            raise InputError("this session was reduced in an earlier run; its factor is not "
+                             "kept", session.table.source,
+                             f"Serve the dataset again with {AGAIN[engine]}")
         return held
 
     def _analyse(self, session: Session, settings: Settings) -> Analysis:

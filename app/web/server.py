@@ -10,14 +10,17 @@ import socket
 import threading
 import time
 import webbrowser
+from collections.abc import Callable
 from pathlib import Path
 
 import uvicorn
 
 from app.store import Store, default_root
+from app.store.records import Created
 from app.tables.read import read_table
 from app.web.app import create_app
 from app.web.links import link
+from app.web.state import Session
 
 #: Seconds a stopping server waits for open requests; live feeds never end on their own
 #: quickly, so without a bound Ctrl+C would wait for every open page.
@@ -61,6 +64,18 @@ def base_url(host: str, port: int) -> str:
     return f"http://[{host}]:{port}" if ":" in host else f"http://{host}:{port}"
 
 
+def _announce(base: str, share: bool) -> Callable[[Session, Created], None]:
+    """What a streamed file's reduction prints when its session is ready."""
+    def done(session: Session, made: Created) -> None:
+        sid = made.session_id
+        print(f"rankscope: the file is reduced; its session is at {base}/s/{sid}/inspect",
+              flush=True)
+        if share:
+            print(f"  edit link:        {link(base, sid, made.edit_token)}", flush=True)
+            print(f"  view-only link:   {link(base, sid, made.view_token)}", flush=True)
+    return done
+
+
 def run(path: str | os.PathLike | None, host: str = "127.0.0.1", port: int = 8765,
         open_browser: bool = True, *, data_dir: str | os.PathLike | None = None,
         share: bool = False, engine: str = "memory", scheduler: str | None = None,
@@ -70,9 +85,11 @@ def run(path: str | os.PathLike | None, host: str = "127.0.0.1", port: int = 876
     it as a new session. share, or any address beyond this computer, makes every request
     need a link's token; the links are printed. engine "dask": path is a Parquet dataset
     folder, reduced once on Dask (scheduler: a cluster's address, None: a local cluster)
-    with `response` as y; its session analyses that factor."""
+    with `response` as y; its session analyses that factor. engine "stream": path is one
+    file, streamed into its factor in the background while the browser shows its progress
+    (/reducing, with a Cancel button); the session opens when it is done."""
     table = data = None
-    if path is not None and engine != "dask":
+    if path is not None and engine not in ("dask", "stream"):
         name = Path(path).name
         table = read_table(path, name=name)
         data = Path(path).read_bytes()
@@ -86,6 +103,12 @@ def run(path: str | os.PathLike | None, host: str = "127.0.0.1", port: int = 876
         app, _, made = create_dask_app(path or "", response, scheduler, data_dir,
                                        share=share, public_url=public_url)
         store: Store = app.state.sessions.db
+    elif engine == "stream":
+        from app.web.stream_app import create_stream_app
+
+        app = create_stream_app(path or "", response, data_dir, share=share,
+                                public_url=public_url, on_done=_announce(base, share))
+        store = app.state.sessions.db
     else:
         store = Store(data_dir if data_dir is not None else default_root())
         app = create_app(store, share=share, public_url=public_url)
@@ -97,6 +120,8 @@ def run(path: str | os.PathLike | None, host: str = "127.0.0.1", port: int = 876
                      "session)")
     if data is not None and table is not None:
         session, made = app.state.bench.start(data, table.source, table)
+    if engine == "stream":
+        start = f"{base}/reducing" + (f"?t={app.state.owner_key}" if share else "")
     if made is not None:
         sid = made.session_id
         # Your own browser opens the session with the key it already has: the owner key
@@ -121,4 +146,8 @@ def run(path: str | os.PathLike | None, host: str = "127.0.0.1", port: int = 876
     try:
         server.run()
     finally:
+        reduction = getattr(app.state, "reduction", None)
+        if reduction is not None:  # stop streaming before its session store closes
+            reduction.cancel()
+            reduction.wait()
         store.close()

@@ -1,0 +1,130 @@
+"""Serving a file too big for memory: the file streamed into its factor in a background thread
+(progress, cancel), then started as a session of the reduced app. Used by `serve --engine stream`.
+"""
+
+from __future__ import annotations
+
+import logging
+import os
+import threading
+from collections.abc import Callable
+from pathlib import Path
+from typing import Any
+
+from fastapi import FastAPI
+
+from app.design.names import quoted, suggestion
+from app.design.recipe import Recipe
+from app.scale.stream import BLOCK_ROWS, Cancelled, stream_source
+from app.scale.stream_source import open_source
+from app.store.records import Created
+from app.tables.errors import InputError
+from app.web import reducing
+from app.web.reduced import Reduced
+from app.web.reduced_app import create_reduced_app, start_reduced
+from app.web.state import Session
+
+log = logging.getLogger(__name__)
+
+#: Called from the reduction's thread once its session exists.
+OnDone = Callable[[Session, Created], None]
+
+
+class Reduction:
+    """One file streamed block by block in a daemon thread, then started as a session of the
+    app given to start(). The progress routes read status(); cancel() stops it between blocks."""
+
+    def __init__(self, path: str | os.PathLike, response: str | None, *,
+                 block_rows: int = BLOCK_ROWS, on_done: OnDone | None = None) -> None:
+        if not response:
+            raise InputError("serving a streamed file needs a response column", "",
+                             "Name it with --response COL")
+        self.path = str(path)
+        # Opened here, so a missing file or column is refused before anything listens.
+        self._source = open_source(path, name=Path(path).name)
+        if response not in self._source.columns:
+            raise InputError(f"the file has no column named {quoted(response)}", "--response",
+                             suggestion(response, self._source.columns))
+        self._recipe = Recipe([{"step": "response", "column": response}])
+        self._app: FastAPI | None = None
+        self._block_rows, self._on_done = block_rows, on_done
+        self._cancel = threading.Event()
+        self._lock = threading.Lock()
+        self._status: dict[str, Any] = {
+            "state": "running", "file": Path(path).name, "rows": 0, "bytes_done": 0,
+            "bytes_total": self._source.bytes_total, "message": None, "session": None}
+        self._thread = threading.Thread(target=self._run, name="rankscope-stream",
+                                        daemon=True)
+
+    def start(self, app: FastAPI) -> None:
+        """Start streaming; the session it ends with is one of app's (a reduced app)."""
+        self._app = app
+        self._thread.start()
+
+    def cancel(self) -> None:
+        """Ask the stream to stop before its next block (nothing happens once it ended)."""
+        self._cancel.set()
+
+    def wait(self, timeout: float | None = None) -> bool:
+        """Wait for the thread to end; True when it has."""
+        self._thread.join(timeout)
+        return not self._thread.is_alive()
+
+    def status(self) -> dict[str, Any]:
+        """state (running, done, cancelled, failed), rows, bytes, fraction, stopping (cancel
+        pressed, not yet stopped), message, session and its url once done."""
+        with self._lock:
+            out = dict(self._status)
+        total = out["bytes_total"]
+        out["fraction"] = min(out["bytes_done"] / total, 1.0) if total else 0.0
+        if out["state"] == "done":
+            out["fraction"] = 1.0
+        out["url"] = f"/s/{out['session']}/inspect" if out["session"] else None
+        out["stopping"] = out["state"] == "running" and self._cancel.is_set()
+        return out
+
+    def _update(self, **changes: Any) -> None:
+        with self._lock:
+            self._status.update(changes)
+
+    def _progress(self, rows: int, done: int, total: int) -> None:
+        self._update(rows=rows, bytes_done=done, bytes_total=total)
+
+    def _run(self) -> None:
+        try:
+            F, info = stream_source(self._source, self._recipe, block_rows=self._block_rows,
+                                    progress=self._progress, cancel=self._cancel)
+            assert self._app is not None  # start() sets it before the thread runs
+            reduced = Reduced(F, info, self.path, 1, engine="stream")
+            session, made = start_reduced(self._app, reduced)
+        except Cancelled as e:
+            self._update(state="cancelled", message=f"The reduction was cancelled ({e}).")
+            return
+        except InputError as e:
+            self._update(state="failed", message=e.message)
+            return
+        except Exception as e:  # noqa: BLE001 - the page says it; the server stays up
+            log.exception("streaming %s failed", self.path)
+            self._update(state="failed", message=f"The reduction stopped: {e}")
+            return
+        self._update(state="done", rows=info.layout.rows_total, session=session.session_id,
+                     message=f"Reduced {info.layout.rows_total:,} rows in {info.blocks} "
+                             f"block(s).")
+        if self._on_done is not None:
+            self._on_done(session, made)
+
+
+def create_stream_app(path: str | os.PathLike, response: str | None,
+                      data_dir: str | os.PathLike | None = None, *, share: bool = False,
+                      public_url: str | None = None, block_rows: int = BLOCK_ROWS,
+                      on_done: OnDone | None = None) -> FastAPI:
+    """The reduced app (see create_reduced_app) with the progress routes and the file's
+    reduction started (app.state.reduction). A missing file or response column raises
+    InputError before the store is opened. The caller cancels the reduction, waits for it,
+    then closes the store (app.state.sessions.db)."""
+    reduction = Reduction(path, response, block_rows=block_rows, on_done=on_done)
+    app = create_reduced_app(data_dir, share=share, public_url=public_url)
+    app.state.reduction = reduction
+    app.include_router(reducing.router)
+    reduction.start(app)
+    return app
