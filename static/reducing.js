@@ -54,4 +54,5 @@
   });
 
   if (box.dataset.state === "running") poll();
+  else if (box.dataset.state === "done" && !open.hidden) window.location.assign(link.href);
 })();
