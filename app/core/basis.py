@@ -30,18 +30,14 @@ class Basis:
     qty: np.ndarray
 
 
-def _reflector(x: np.ndarray) -> tuple[np.ndarray, float, float]:
-    """Householder vector v, beta and alpha with (I - beta v vᵀ) x = alpha e1.
-
-    Golub & Van Loan, Matrix Computations, 4th ed., Algorithm 5.1.1 (sign chosen to
-    avoid cancellation).
-    """
-    alpha = -np.copysign(np.linalg.norm(x), x[0])
-    v = x.copy()
-    v[0] -= alpha
-    vv = float(v @ v)
-    beta = 0.0 if vv == 0.0 else 2.0 / vv
-    return v, beta, float(alpha)
+def _diagonal(A: np.ndarray) -> np.ndarray:
+    """|r_kk| of the unpivoted Householder QR of A (LAPACK geqrf): r_kk is the length of
+    column k left after projecting it off columns 0..k-1."""
+    R = np.linalg.qr(A, mode="r")
+    d = np.zeros(A.shape[1])
+    m = min(R.shape)
+    d[:m] = np.abs(np.diag(R)[:m])
+    return d
 
 
 def choose_basis(
@@ -56,34 +52,47 @@ def choose_basis(
     remaining length only shrinks as more basis columns are accepted, so every
     deferred column ends within tol of the span of the basis.
     A: (m, p). order: a permutation of range(p). tol: absolute length threshold.
+
+    The remaining length of column k after the accepted ones is the diagonal entry r_kk of
+    an unpivoted QR, so the scan runs in LAPACK: one QR of the candidates, and one more
+    after each deferral (the columns after a deferred one must be measured without it).
     """
-    W = np.array(A, dtype=np.float64, copy=True)
-    m, _ = W.shape
-    qty = np.zeros(m) if rhs is None else np.array(rhs, dtype=np.float64, copy=True)
+    A = np.asarray(A, dtype=np.float64)
+    m = A.shape[0]
     basis: list[int] = []
     dependent: list[int] = []
-    k = 0
-    for j in order:
-        if k >= m:
-            dependent.append(j)
-            continue
-        col = W[k:, j]
-        if np.linalg.norm(col) <= tol:
-            dependent.append(j)
-            continue
-        v, beta, alpha = _reflector(col)
-        if beta:
-            W[k:, :] -= beta * np.outer(v, v @ W[k:, :])
-            qty[k:] -= beta * v * float(v @ qty[k:])
-        W[k, j] = alpha
-        W[k + 1 :, j] = 0.0
-        basis.append(j)
-        k += 1
-    R11 = np.triu(W[:k][:, basis])
-    # Fix signs so the diagonal is positive (unique factor; flips qty consistently).
-    signs = np.where(np.diag(R11) < 0, -1.0, 1.0)
-    R11 = R11 * signs[:, None]
-    R12 = W[:k][:, dependent] * signs[:, None]
-    qty[:k] *= signs
-    remainder = np.linalg.norm(W[k:][:, dependent], axis=0) if dependent else np.zeros(0)
+    pending = list(order)
+    while pending:
+        room = m - len(basis)
+        if room <= 0:
+            dependent.extend(pending)
+            break
+        d = _diagonal(A[:, basis + pending])[len(basis):]
+        small = [i for i in range(min(len(pending), room)) if d[i] <= tol]
+        cut = small[0] if small else min(len(pending), room)
+        basis.extend(pending[:cut])
+        if small:
+            dependent.append(pending[cut])
+            pending = pending[cut + 1 :]
+        else:
+            dependent.extend(pending[cut:])
+            pending = []
+    k = len(basis)
+    cols = basis + dependent
+    M = A[:, cols] if rhs is None else np.column_stack([A[:, cols], rhs])
+    R = np.linalg.qr(M, mode="r")
+    full = np.zeros((max(m, M.shape[1]), M.shape[1]))
+    full[: R.shape[0]] = R
+    signs = np.where(np.diag(full[:k, :k]) < 0, -1.0, 1.0)
+    R11 = np.triu(full[:k, :k]) * signs[:, None]
+    d = len(dependent)
+    R12 = full[:k, k : k + d] * signs[:, None]
+    remainder = np.linalg.norm(full[k:, k : k + d], axis=0) if d else np.zeros(0)
+    qty = np.zeros(m)
+    if rhs is not None:
+        qty[:k] = full[:k, -1] * signs
+        # Only the length of what y keeps beyond the basis is used (the residual sum of
+        # squares), so it is stored in one entry.
+        if k < m:
+            qty[k] = float(np.linalg.norm(full[k:, -1]))
     return Basis(basis, dependent, R11, R12, remainder, qty)
