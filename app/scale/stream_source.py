@@ -23,6 +23,7 @@ import pyarrow.types as pat
 from app.tables import sniff
 from app.tables.build import build
 from app.tables.errors import InputError
+from app.tables.parquet import unreadable
 from app.tables.raw import Raw
 from app.tables.read import read_bytes
 from app.tables.table import Table
@@ -270,11 +271,7 @@ def _parquet_file(path: Path, where: str) -> pq.ParquetFile:
     try:
         return pq.ParquetFile(path)
     except (pa.ArrowException, OSError, ValueError) as e:
-        raise InputError(
-            f"The Parquet file could not be read ({str(e).splitlines()[0][:120]})",
-            where,
-            "Write or download the file again",
-        ) from None
+        raise unreadable(e, where) from None
 
 
 def open_source(path: str | Path, *, name: str | None = None,

@@ -17,6 +17,15 @@ from app.tables.raw import Raw
 PANDAS_INDEX = re.compile(r"^__index_level_\d+__$")
 
 
+
+def unreadable(e: Exception, where: str) -> InputError:
+    """The message for a Parquet file pyarrow cannot open (first line of its reason)."""
+    return InputError(
+        f"The Parquet file could not be read ({str(e).splitlines()[0][:120]})",
+        where,
+        "Write or download the file again",
+    )
+
 def read_parquet(data: bytes, where: str) -> Raw:
     if not (data.startswith(b"PAR1") and data.endswith(b"PAR1") and len(data) >= 12):
         raise InputError(
@@ -27,11 +36,7 @@ def read_parquet(data: bytes, where: str) -> Raw:
     try:
         table = pq.read_table(pa.BufferReader(data))
     except (pa.ArrowException, OSError, ValueError) as e:
-        raise InputError(
-            f"The Parquet file could not be read ({str(e).splitlines()[0][:120]})",
-            where,
-            "Write or download the file again",
-        ) from None
+        raise unreadable(e, where) from None
     notes = []
     keep = [i for i, n in enumerate(table.column_names) if not PANDAS_INDEX.match(n)]
     if len(keep) < table.num_columns:

@@ -19,11 +19,11 @@ if not os.environ.get("CI"):
 from dask.distributed import LocalCluster  # noqa: E402
 from fastapi.testclient import TestClient  # noqa: E402
 
-from app.core import diagnose
 from app.design.recipe import Recipe, build_design
 from app.tables.read import read_table
 from app.web.dask_app import create_dask_app
 from app.web.reduced import ROWS_NEEDED
+from tests.scale.reduced_check import assert_matches_in_memory
 
 RECIPE = [{"step": "response", "column": "load"}]
 
@@ -65,26 +65,12 @@ def served(dataset, tmp_path_factory):
     app.state.sessions.db.close()
 
 
-def close(a: float | None, b: float | None, rel: float = 1e-10) -> bool:
-    return a is None and b is None or (a is not None and b is not None
-                                       and abs(a - b) <= rel * max(abs(a), abs(b), 1.0))
-
-
 def test_page_and_numbers_equal_in_memory(served, dataset) -> None:
     client, sid = served
     _, whole = dataset
     design = build_design(read_table(whole), Recipe(RECIPE))
     # Reference: the in-memory analysis of the same rows read as one file.
-    ref = diagnose(design.X, design.columns, design.y, response=design.response,
-                   groups=design.groups).to_dict()
-    got = client.get(f"/api/s/{sid}/diagnosis").json()
-    assert got["rank"] == ref["rank"] == len(ref["columns"]) - 1
-    assert got["columns"] == ref["columns"]
-    assert got["vif"].keys() == ref["vif"].keys()
-    assert all(close(got["vif"][c], ref["vif"][c]) for c in ref["vif"])
-    coef, ref_coef = got["fit"]["coefficients"], ref["fit"]["coefficients"]
-    assert coef.keys() == ref_coef.keys()
-    assert all(close(coef[c], ref_coef[c]) for c in ref_coef)
+    assert_matches_in_memory(client, sid, design)
     page = client.get(f"/s/{sid}/inspect")
     assert page.status_code == 200
     listed = page.text.split('id="dependency-list"')[1].split("</ol>")[0]

@@ -14,11 +14,11 @@ import pandas as pd
 import pytest
 from fastapi.testclient import TestClient
 
-from app.core import diagnose
 from app.design.recipe import Recipe, build_design
 from app.tables.read import read_table
 from app.web import stream_app
 from app.web.stream_app import create_stream_app
+from tests.scale.reduced_check import assert_matches_in_memory
 
 RECIPE = [{"step": "response", "column": "load"}]
 N, BLOCK = 1200, 200  # six blocks of rows
@@ -79,11 +79,6 @@ def gated(csv_path, tmp_path, monkeypatch) -> Iterator[tuple[TestClient, Any, Ga
     app.state.sessions.db.close()
 
 
-def close(a: float | None, b: float | None, rel: float = 1e-10) -> bool:
-    return a is None and b is None or (a is not None and b is not None
-                                       and abs(a - b) <= rel * max(abs(a), abs(b), 1.0))
-
-
 def test_progress_counts_up_then_session_equals_in_memory(gated, csv_path) -> None:
     client, app, gate = gated
     page = client.get("/reducing")
@@ -105,16 +100,7 @@ def test_progress_counts_up_then_session_equals_in_memory(gated, csv_path) -> No
 
     design = build_design(read_table(csv_path), Recipe(RECIPE))
     # Reference: the in-memory analysis of the same file, read whole.
-    ref = diagnose(design.X, design.columns, design.y, response=design.response,
-                   groups=design.groups).to_dict()
-    got = client.get(f"/api/s/{sid}/diagnosis").json()
-    assert got["rank"] == ref["rank"] == len(ref["columns"]) - 1
-    assert got["columns"] == ref["columns"]
-    assert got["vif"].keys() == ref["vif"].keys()
-    assert all(close(got["vif"][c], ref["vif"][c]) for c in ref["vif"])
-    coef, ref_coef = got["fit"]["coefficients"], ref["fit"]["coefficients"]
-    assert coef.keys() == ref_coef.keys()
-    assert all(close(coef[c], ref_coef[c]) for c in ref_coef)
+    assert_matches_in_memory(client, sid, design)
     page = client.get(status["url"])
     assert page.status_code == 200
     listed = page.text.split('id="dependency-list"')[1].split("</ol>")[0]
