@@ -66,26 +66,26 @@ def index_table(
     tol: float,
     index_threshold: float = INDEX_THRESHOLD,
     proportion_threshold: float = PROPORTION_THRESHOLD,
+    svd: tuple[np.ndarray, np.ndarray, np.ndarray] | None = None,
 ) -> IndexTable:
     """Condition indices and variance-decomposition proportions of the unit-length,
     uncentered X (Belsley, Kuh & Welsch 1980, §3.2, eqs. 3.10–3.12).
 
     With Xe = U·D·Vᵀ: φ_jk = v_jk² / d_k², π_kj = φ_jk / Σ_k φ_jk, η_k = d_max / d_k.
-    R_eq: (p, p) factor of Xe (same D and V as Xe). A zero d_k is floored at
-    d_max·eps² so that the proportions stay defined (that row is then all but exact).
+    R_eq: (p, p) factor of Xe (same D and V as Xe); svd: its (U, d, Vt) when already
+    computed. A zero d_k is floored at d_max·eps² so that the proportions stay defined
+    (that row is then all but exact).
     """
-    _, d, Vt = np.linalg.svd(R_eq)
+    _, d, Vt = svd if svd is not None else np.linalg.svd(R_eq)
     dmax = d[0] if d.size else 1.0
     dfl = np.maximum(d, dmax * EPS * EPS)
     phi = (Vt.T**2) / dfl[None, :] ** 2  # (p columns, p singular values)
     prop = (phi / phi.sum(axis=1, keepdims=True)).T  # rows: singular values
     idx = dmax / dfl
-    flagged = []
-    for k in range(len(d)):
-        cols = [j for j in range(prop.shape[1]) if prop[k, j] > proportion_threshold]
-        if idx[k] > index_threshold and len(cols) >= 2:
-            flagged.append((k, cols))
-    return IndexTable(idx, prop, flagged, [bool(x <= tol) for x in d])
+    above = prop > proportion_threshold
+    flagged = [(k, np.flatnonzero(above[k]).tolist()) for k in range(len(d))
+               if idx[k] > index_threshold and np.count_nonzero(above[k]) >= 2]
+    return IndexTable(idx, prop, flagged, (d <= tol).tolist())
 
 
 def unit_columns(A: np.ndarray, keep: list[int]) -> np.ndarray:

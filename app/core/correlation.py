@@ -5,6 +5,8 @@ Pearson comes from the centered factor; Spearman needs the rows (ranks).
 
 from __future__ import annotations
 
+from functools import lru_cache
+
 import numpy as np
 from scipy.cluster.hierarchy import leaves_list, linkage, optimal_leaf_ordering
 from scipy.spatial.distance import squareform
@@ -32,18 +34,32 @@ def spearman(X: np.ndarray) -> np.ndarray:
     return np.clip(C, -1.0, 1.0)
 
 
+#: Digits the correlations are rounded to before ordering: the order is a display choice,
+#: and a design change that leaves the correlations alone (centering, a unit change) then
+#: finds the order already made instead of clustering again.
+ORDER_DIGITS = 10
+
+
 def cluster_order(C: np.ndarray) -> list[int]:
     """Display order grouping strongly correlated columns: average-linkage hierarchical
     clustering on the distance 1 − |r|, leaves put in optimal order (Bar-Joseph et al.,
     Bioinformatics 17, 2001, as in scipy.cluster.hierarchy.optimal_leaf_ordering).
+
+    C: (k, k) correlation matrix, rounded to ORDER_DIGITS decimals first.
     """
-    k = C.shape[0]
+    C = np.round(np.asarray(C, dtype=np.float64), ORDER_DIGITS)
+    return list(_order(C.shape[0], C.tobytes()))
+
+
+@lru_cache(maxsize=32)
+def _order(k: int, data: bytes) -> tuple[int, ...]:
     if k < 3:
-        return list(range(k))
+        return tuple(range(k))
+    C = np.frombuffer(data, dtype=np.float64).reshape(k, k)
     D = 1.0 - np.abs(C)
     D = (D + D.T) / 2
     np.fill_diagonal(D, 0.0)
     cond = squareform(np.clip(D, 0.0, None), checks=False)
     Z = linkage(cond, method="average")
     Z = optimal_leaf_ordering(Z, cond)
-    return [int(i) for i in leaves_list(Z)]
+    return tuple(int(i) for i in leaves_list(Z))

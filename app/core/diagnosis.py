@@ -130,7 +130,7 @@ def diagnose_factor(
     p = F.p
     notes = list(F.notes)
     R_eq = F.R_x
-    sv_eq = cnd.singular_values(R_eq)
+    sv_eq = F.svd_eq[1]
     tol_used = float(tol) if tol is not None else cnd.default_tolerance(
         sv_eq[0] if sv_eq.size else 0.0, F.n, p)
     rank_svd = int(np.sum(sv_eq > tol_used))
@@ -154,7 +154,7 @@ def diagnose_factor(
         rel_dicts.append(d)
 
     # Condition numbers of raw, unit-length, and centered-and-scaled X.
-    sv_raw = cnd.singular_values(F.R_xy_raw[:p, :p])
+    sv_raw = F.svd_raw[1]
     cen = F.centered[:, :p]
     cen_len = np.linalg.norm(cen, axis=0)
     # A column whose centered length is at rounding level relative to its raw length is
@@ -171,8 +171,9 @@ def diagnose_factor(
         "centered": finite_or_none(cnd.condition_number(sv_c, tol_c)) if sv_c.size else None,
     }
 
-    table = cnd.index_table(R_eq, tol_used, index_threshold, proportion_threshold)
-    props = [{names[j]: float(table.proportions[k, j]) for j in range(p)} for k in range(p)]
+    table = cnd.index_table(R_eq, tol_used, index_threshold, proportion_threshold,
+                            svd=F.svd_eq)
+    props = [dict(zip(names, row, strict=True)) for row in table.proportions.tolist()]
     near = [
         {
             "index": finite_or_none(table.indices[k]),
@@ -188,14 +189,13 @@ def diagnose_factor(
     space = cen if vif_centered else R_eq
     cand = nonconst if vif_centered else list(range(p))
     label = [names[j] for j in cand]
-    Zall = cnd.unit_columns(space, cand)
+    Zall = Zc if vif_centered else cnd.unit_columns(space, cand)
     # Exact dependencies in the space the VIF lives in: those of X, plus any that centering
     # creates (every level of a categorical without an explicit intercept sums to the
     # constant). Their columns have infinite VIF; the rest come from the basis columns.
     rank_of = {j: i for i, j in enumerate(priority_order(names, keep))}
     inner_order = sorted(range(len(cand)), key=lambda i: rank_of[cand[i]])
-    sv_all = cnd.singular_values(Zall)
-    inner_tol = (tol_c if vif_centered else tol_used) if sv_all.size else 0.0
+    inner_tol = (tol_c if vif_centered else tol_used) if cand else 0.0
     inner = choose_basis(Zall, inner_order, inner_tol)
     involved: set[str] = set()
     for r in relations(Zall, inner, label, np.ones(len(cand))):

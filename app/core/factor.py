@@ -38,6 +38,14 @@ def _blocks(X: np.ndarray, y: np.ndarray, sw: np.ndarray | None):
         yield B
 
 
+def _svd(R: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Full SVD of a small square factor (LAPACK gesdd); empty parts for p = 0."""
+    if R.size == 0:
+        k = R.shape[0]
+        return np.zeros((k, 0)), np.zeros(0), np.zeros((0, R.shape[1]))
+    return np.linalg.svd(R)
+
+
 @dataclass
 class Factorization:
     """The triangular factor T of the weighted matrix M = [1, X, y] with its scales.
@@ -114,6 +122,18 @@ class Factorization:
     def R_x(self) -> np.ndarray:
         """(p, p) triangular factor of Xe: same singular values and Gram matrix as Xe."""
         return self.R_xy[: self.p, : self.p]
+
+    @cached_property
+    def svd_eq(self) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        """(U, d, Vt) of R_x: the SVD of Xe, computed once for the rank, the condition
+        indices and their proportions (Xe = Q·R_x shares d and V with R_x)."""
+        return _svd(self.R_x)
+
+    @cached_property
+    def svd_raw(self) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        """(U, d, Vt) of the raw factor of X: its condition number and the minimum-norm
+        solution in raw units come from this one SVD."""
+        return _svd(self.R_xy_raw[: self.p, : self.p])
 
     @cached_property
     def means(self) -> np.ndarray:

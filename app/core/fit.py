@@ -109,9 +109,8 @@ def min_norm_solution(F: Factorization, rank: int) -> np.ndarray:
     """argmin ||β|| over the least-squares solutions, raw units, truncated at `rank`
     singular values (Golub & Van Loan 4th ed. §5.5.1), from the SVD of the raw factor."""
     p = F.p
-    R = F.R_xy_raw
-    U, d, Vt = np.linalg.svd(R[:p, :p])
-    h = U.T @ R[:p, p]
+    U, d, Vt = F.svd_raw
+    h = U.T @ F.R_xy_raw[:p, p]
     r = min(rank, int(np.count_nonzero(d)))
     return Vt[:r].T @ (h[:r] / d[:r])
 

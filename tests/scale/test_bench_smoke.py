@@ -23,7 +23,7 @@ def test_bench_quick_runs() -> None:
                  "all VIFs: regression loop / full diagnosis",
                  "blocked factorization / one LAPACK QR",
                  "peak memory of a diagnosis / matrix bytes",
-                 "edit and refit / full diagnosis", "edit and refit: most rows / fewest rows"):
+                 "edit and refit / full diagnosis: drop x5", "most rows / fewest rows"):
         assert what in out, what
     assert "path: factor" in out  # the timed edit took the factor path
     assert "goal(s) MISSED" in out or "every goal met" in out
