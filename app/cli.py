@@ -317,6 +317,32 @@ def run_check(args: argparse.Namespace) -> int:
     return EXIT_CROSSED if crossed else EXIT_OK
 
 
+def serve_limits(args: argparse.Namespace) -> Any:
+    """The Limits of `rankscope serve` from the limit flags given (None: none given, so the
+    defaults hold); 0 turns a row, column or time limit off. Refuses senseless values."""
+    from dataclasses import replace
+
+    from app.web.limits import MB, Limits
+
+    given = {flag: value for flag, value in (
+        ("--max-upload-mb", args.max_upload_mb), ("--max-rows", args.max_rows),
+        ("--max-columns", args.max_columns), ("--time-budget", args.time_budget),
+    ) if value is not None}
+    if not given:
+        return None
+    for flag, value in given.items():
+        if not math.isfinite(value) or value < 0 or (flag == "--max-upload-mb" and value == 0):
+            raise InputError(f"{flag} must be a positive number, not {value:g}", "",
+                             "Give a positive number (0 turns the row, column and time limits "
+                             "off)")
+    limits = Limits()
+    fields = {"--max-upload-mb": ("max_upload_bytes", lambda v: int(v * MB)),
+              "--max-rows": ("max_rows", lambda v: v or None),
+              "--max-columns": ("max_columns", lambda v: v or None),
+              "--time-budget": ("analysis_seconds", lambda v: v or None)}
+    return replace(limits, **{fields[f][0]: fields[f][1](v) for f, v in given.items()})
+
+
 def run_serve(args: argparse.Namespace) -> int:
     if args.engine == "dask":
         if args.file is None or not Path(args.file).is_dir():
@@ -351,6 +377,11 @@ def run_serve(args: argparse.Namespace) -> int:
         extra.update(engine="dask", scheduler=args.scheduler, response=args.response)
     elif args.engine == "stream":
         extra.update(engine="stream", response=args.response)
+    limits = serve_limits(args)
+    if limits is not None:
+        extra["limits"] = limits
+    if args.host_name:
+        extra["host_names"] = list(args.host_name)
     run(args.file, host=host, port=args.port, open_browser=not args.no_browser, **extra)
     return EXIT_OK
 
@@ -398,6 +429,9 @@ def build_parser() -> Parser:
     serve.add_argument("--host", default=None,
                        help="address to listen on (default 127.0.0.1, or 0.0.0.0 with --share)")
     serve.add_argument("--port", type=int, default=8000, help="port to listen on")
+    serve.add_argument("--host-name", metavar="NAME", action="append", default=[],
+                       help="another name this server may be reached by (e.g. the computer's "
+                       "name on the network); requests naming any other host are refused")
     serve.add_argument("--no-browser", action="store_true", help="do not open a browser")
     serve.add_argument("--data-dir", metavar="DIR", default=None,
                        help="folder that keeps the sessions (default ~/.rankscope, or "
@@ -416,6 +450,16 @@ def build_parser() -> Parser:
     serve.add_argument("--response", metavar="COL", default=None,
                        help="the response column (y); required with --engine dask or "
                             "stream")
+    serve.add_argument("--max-upload-mb", metavar="MB", type=float, default=None,
+                       help="the largest file an upload may send, in MB (default 1000)")
+    serve.add_argument("--max-rows", metavar="N", type=int, default=None,
+                       help="refuse tables with more data rows (default 5000000; 0: no "
+                            "limit)")
+    serve.add_argument("--max-columns", metavar="N", type=int, default=None,
+                       help="refuse tables with more columns (default 2000; 0: no limit)")
+    serve.add_argument("--time-budget", metavar="SECONDS", type=float, default=None,
+                       help="how long a request waits for an analysis before it answers "
+                            "that the analysis is still running (default 30; 0: no limit)")
     serve.set_defaults(run=run_serve)
     return parser
 

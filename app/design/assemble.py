@@ -16,6 +16,23 @@ from app.design.names import quoted
 from app.design.steps import ALL_LEVELS
 from app.tables.errors import InputError
 
+#: Values beyond this magnitude are refused: the core squares values on the way to the
+#: factor, and squares above ~1.3e154 overflow IEEE 754 double precision (max ~1.8e308).
+LARGEST = 1e150
+
+
+def _check_magnitude(bench: Bench, col: Col, values: np.ndarray) -> None:
+    with np.errstate(invalid="ignore"):
+        big = np.abs(values) > LARGEST
+    if big.any():
+        i = int(np.flatnonzero(big)[0])
+        raise InputError(
+            f"{quoted(col.name)} holds {values[i]:g}, too large to compute with (the analysis "
+            f"squares values, and beyond {LARGEST:g} the squares overflow)",
+            bench.where(i, col),
+            "Rescale the column (a multiply step, e.g. by 1e-300), or check the value",
+        )
+
 
 @dataclass
 class Plan:
@@ -137,6 +154,7 @@ def assemble(bench: Bench, plan: Plan) -> Matrix:
                 groups[col.name] = [name for name, _ in pairs]
         else:
             pairs = [(col.name, col.values.astype(float))]
+            _check_magnitude(bench, col, pairs[0][1])
         for name, values in pairs:
             if name in names:
                 raise InputError(
@@ -166,5 +184,6 @@ def assemble(bench: Bench, plan: Plan) -> Matrix:
     if plan.response is not None:
         _raise_problem(plan.response)
         y = plan.response.values.astype(float)
+        _check_magnitude(bench, plan.response, y)
     X = np.column_stack(arrays).astype(np.float64, copy=False)
     return Matrix(np.ascontiguousarray(X), names, y, groups, notes)

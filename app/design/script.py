@@ -61,8 +61,10 @@ def _reader(path: str, text_columns: list[str]) -> str:
 
 
 def _comment(text: str) -> str:
-    """Text safe to put after a # (column names may hold line breaks)."""
-    return " ".join(text.splitlines())
+    """Text safe to put after a # or inside the docstring: column and file names may hold
+    line breaks, NUL (which no Python source may contain) or lone surrogates (which UTF-8
+    cannot write); every character that is not printable becomes a space."""
+    return "".join(ch if ch.isprintable() else " " for ch in text)
 
 
 def _c(name: str) -> str:
@@ -204,7 +206,7 @@ def recipe_to_python(recipe: Recipe, source_path: str, table: Table) -> str:
             body += _step_code(step, made, before, helpers)
     body += ["", *_matrix_code(trace)]
     # Only the file name goes into the docstring: a Windows path would read as escapes.
-    file_name = re.split(r"[\\/]", source_path)[-1].replace('"', "'")
+    file_name = _comment(re.split(r"[\\/]", source_path)[-1].replace('"', "'"))
     head = [
         f'"""Rebuild the design matrix X and the response y from {file_name}.',
         "",

@@ -6,6 +6,7 @@ Checks the shape of a step only; applying steps to data lives in the apply_* mod
 from __future__ import annotations
 
 import math
+import sys
 from dataclasses import dataclass
 from typing import Any
 
@@ -160,6 +161,20 @@ SPECS: dict[str, StepSpec] = {
 SINGLE_COLUMN = ("center", "standardize", "unit_length", "multiply", "log", "power")
 
 
+def finite_number(value: int | float) -> bool:
+    """True for a number a float can hold (JSON integers may be far larger)."""
+    if isinstance(value, int):
+        return abs(value) <= sys.float_info.max
+    return math.isfinite(value)
+
+
+def short_number(value: int | float) -> str:
+    """A number for a message: a huge integer by its size, not its 400 digits."""
+    if isinstance(value, int) and abs(value) > sys.float_info.max:
+        return f"an integer of {len(str(abs(value))):,} digits"
+    return repr(value)
+
+
 def _bad(what: str, where: str, todo: str = "") -> InputError:
     return InputError(what, where, todo)
 
@@ -179,8 +194,9 @@ def _check_field(spec: StepSpec, f: Field, value: Any, where: str) -> None:
         # bool is an int in Python; true/false as a number is a mistake in the JSON
         if isinstance(value, bool) or not isinstance(value, int | float):
             raise _bad(f"{label} must be a number, not {value!r}", where, f.help)
-        if not math.isfinite(value):
-            raise _bad(f"{label} must be a finite number, not {value!r}", where, f.help)
+        if not finite_number(value):
+            raise _bad(f"{label} must be a finite number, not {short_number(value)}", where,
+                       f.help)
     elif f.type == "flag":
         if not isinstance(value, bool):
             raise _bad(f"{label} must be true or false, not {value!r}", where, f.help)

@@ -28,6 +28,14 @@ CORRELATION_SCALE = [[0.0, BRICK], [0.5, "#f4f1ea"], [1.0, TEAL]]
 VIF_GUIDE = VIF_MARK
 
 
+def plot_text(name: str) -> str:
+    """A column name as Plotly label text that shows exactly as written. Plotly reads a
+    subset of HTML in titles, tick labels, legends and hover text (<b>, <br>, <a href>, and
+    entities), so "<", ">" and "&" become entities, which it turns back into the characters
+    on screen (HTML 5 named character references)."""
+    return name.replace("&", "&amp;").replace("<", "&lt;").replace(">", "&gt;")
+
+
 def _layout(title: str, **extra: Any) -> dict[str, Any]:
     base: dict[str, Any] = {
         "title": {"text": title, "x": 0.0, "xanchor": "left", "font": {"size": 15, "color": INK}},
@@ -57,7 +65,7 @@ def correlation_heatmap(diagnosis: dict, method: str = "pearson") -> Figure | No
     if matrix is None or len(names) < 2:
         return None
     order = corr.get("order") or list(range(len(names)))
-    labels = [names[i] for i in order]
+    labels = [plot_text(names[i]) for i in order]
     z = [[matrix[i][j] for j in order] for i in order]
     text = [[f"{v:.3f}" for v in row] for row in z]
     label = "Pearson" if method == "pearson" else "Spearman (rank)"
@@ -147,7 +155,7 @@ def inflation_bars(diagnosis: dict) -> Figure | None:
     finite = [v for v in vif.values() if v is not None]
     edge = max(finite + [VIF_GUIDE]) * 10
     ordered = sorted(vif.items(), key=lambda kv: -(math.inf if kv[1] is None else kv[1]))
-    names = [c for c, _ in ordered]
+    names = [plot_text(c) for c, _ in ordered]
     values = [edge if v is None else v for _, v in ordered]
     colors = [BRICK if v is None else (AMBER if v >= VIF_GUIDE else TEAL) for _, v in ordered]
     text = ["∞" if v is None else f"{v:.3g}" for _, v in ordered]
@@ -201,11 +209,13 @@ def ridge_trace(diagnosis: dict) -> Figure | None:
         big = max((abs(v) for v in path), default=0.0)
         ys = [v / big if big > 0 else 0.0 for v in path]
         traces.append({
-            "type": "scatter", "mode": "lines", "x": xs, "y": ys, "name": col,
+            "type": "scatter", "mode": "lines", "x": xs, "y": ys, "name": plot_text(col),
             "line": {"color": palette[i % len(palette)], "width": 1.6},
             "customdata": path,
-            "hovertemplate": f"{col}<br>penalty %{{x:.3g}}<br>coefficient %{{customdata:.4g}}"
-                             "<extra></extra>",
+            # The name by reference, not pasted into the template: a name holding
+            # "%{x}" must not be read as a placeholder.
+            "hovertemplate": "%{fullData.name}<br>penalty %{x:.3g}<br>"
+                             "coefficient %{customdata:.4g}<extra></extra>",
         })
     shapes = []
     chosen = ridge.get("chosen")

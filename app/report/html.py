@@ -5,6 +5,8 @@ Renders finished results only; opens offline, fetches nothing, computes nothing.
 
 from __future__ import annotations
 
+import base64
+import hashlib
 import json
 import re
 import time
@@ -47,6 +49,25 @@ code.equation {{ font-size: 1.05rem; background: #eef5f5; padding: .1rem .4rem; 
 def plotly_bundle() -> str:
     """plotly.min.js from the installed plotly package, safe inside a <script> element."""
     return _script_safe(get_plotlyjs())
+
+
+def _hash(code: str) -> str:
+    """A CSP source for one inline script: its SHA-256 (CSP Level 3, hash-source)."""
+    return "'sha256-" + base64.b64encode(hashlib.sha256(code.encode()).digest()).decode() + "'"
+
+
+@lru_cache(maxsize=1)
+def _plotly_hash() -> str:
+    return _hash(plotly_bundle())
+
+
+def _policy(*scripts: str) -> str:
+    """The report's own Content-Security-Policy: only its two scripts run, it fetches
+    nothing, and it cannot be framed or send forms, so a name that slipped past the
+    escaping still could not run or leak anything when the file is opened."""
+    return ("default-src 'none'; script-src " + " ".join(scripts)
+            + "; style-src 'unsafe-inline'; img-src data: blob:; base-uri 'none'; "
+            "form-action 'none'")
 
 
 def _script_safe(code: str) -> str:
@@ -110,6 +131,8 @@ def render_html(
     extra = [sec.section(k, t, sec.chart(k)) for k, t in charts_for.items() if k in shown]
     all_notes = [*notes, *d.get("notes", [])]
     steps = [describe_step(s) for s in recipe] if recipe is not None else []
+    drawing = _script_safe(script)
+    policy = _policy(_plotly_hash(), _hash(drawing))
     body = [
         f"<header><h1>{sec.esc(title)}</h1>"
         + "".join(f'<p class="meta">{sec.esc(m)}</p>' for m in meta) + "</header>",
@@ -126,9 +149,10 @@ def render_html(
     ]
     return "".join([
         "<!DOCTYPE html>\n<html lang=\"en\"><head><meta charset=\"utf-8\">",
+        f'<meta http-equiv="Content-Security-Policy" content="{sec.esc(policy)}">',
         '<meta name="viewport" content="width=device-width, initial-scale=1">',
         f"<title>{sec.esc(title)}</title><style>{STYLE}</style>",
         f"<script>{plotly_bundle()}</script></head>\n<body>",
         *body,
-        f"<script>{_script_safe(script)}</script></body></html>\n",
+        f"<script>{drawing}</script></body></html>\n",
     ])

@@ -6,12 +6,17 @@ Formats finished results only; every number is read from the Diagnosis, none com
 from __future__ import annotations
 
 import math
+import re
 import textwrap
 
 from app.design.design import Design
 from app.report.cautions import VIF_MARK, choose_cautions
 
 WIDTH = 100
+#: What a terminal would act on instead of showing: C0 and C1 controls but the line feed
+#: (ECMA-48: ESC starts colour, cursor and title sequences) and the bidirectional overrides
+#: and isolates that can make text read in another order (Unicode TR 9; CVE-2021-42574).
+UNSHOWN = re.compile("[\x00-\x09\x0b-\x1f\x7f-\x9f\u202a-\u202e\u2066-\u2069]")
 INF = "∞"
 NONE = "—"
 
@@ -38,6 +43,11 @@ def p_value(p: float | None) -> str:
     if p == 0:
         return "<1e-300"  # below the smallest positive double: shown as a bound
     return f"{p:.2g}" if p >= 1e-4 else f"{p:.1e}"
+
+
+def inert(text: str) -> str:
+    """text with every character a terminal would act on written as its escape (\\x1b)."""
+    return UNSHOWN.sub(lambda m: ascii(m.group())[1:-1], text)
 
 
 def plural(n: int, word: str) -> str:
@@ -274,4 +284,5 @@ def render_text(
     lines += _vif(diagnosis)
     lines += _fit(diagnosis)
     lines += _cautions(diagnosis)
-    return "\n".join(lines) + "\n"
+    # Column names and notes come from the file: shown, never obeyed by the terminal.
+    return inert("\n".join(lines)) + "\n"

@@ -248,8 +248,8 @@ class Store:
 
     # -- changes -------------------------------------------------------------------------
 
-    def apply_change(self, session_id: str, base_version: int, change: Change
-                     ) -> Applied | Conflict:
+    def apply_change(self, session_id: str, base_version: int, change: Change, *,
+                     checked_on: int | None = None) -> Applied | Conflict:
         """Add a change made by someone looking at base_version.
 
         On the current version it is checked and saved. On an older one it is saved on top
@@ -258,21 +258,25 @@ class Store:
         their sender has not seen). Raises InputError for a change that is wrong on the very
         state its sender saw. With a change id, the answer is final: a retry of the same id
         gets the same answer (Applied with repeated=True, or the same refusal).
+        checked_on: the version on which the caller has already checked the change (as the
+        Check would); when it lands on that version, the Check is not run a second time.
         """
         if isinstance(base_version, bool) or not isinstance(base_version, int) \
-                or base_version < 0:
+                or not 0 <= base_version < 2**63:  # SQLite's INTEGER holds 64 bits
             raise InputError(f"a base version is a whole number of 0 or more, not "
-                             f"{base_version!r}", "base version", "Send the version you loaded")
+                             f"{str(base_version)[:40]!r}", "base version",
+                             "Send the version you loaded")
         keep_answer = change.change_id is not None
         change = checked(change)
         with self._lock(session_id):
             con = self._con()
             # Optimistic first: check without holding the write lock, which every session
             # shares; only if another process wrote meanwhile, check again under it.
-            outcome = self._attempt(con, session_id, base_version, change, keep_answer, False)
+            outcome = self._attempt(con, session_id, base_version, change, keep_answer, False,
+                                    checked_on)
             if outcome is None:
                 outcome = self._attempt(con, session_id, base_version, change, keep_answer,
-                                        True)
+                                        True, checked_on)
         assert outcome is not None
         if isinstance(outcome, changes.Refused):
             raise outcome.error()
@@ -282,18 +286,19 @@ class Store:
         return self._table(snap.table_key, snap.filename, snap.kinds, snap.notes)
 
     def _attempt(self, con: sqlite3.Connection, session_id: str, base: int, change: Change,
-                 keep_answer: bool, locked: bool
+                 keep_answer: bool, locked: bool, checked_on: int | None = None
                  ) -> Applied | Conflict | changes.Refused | None:
         """One try: None when another writer got in between the check and the write."""
         assert change.change_id is not None
         if locked:
             with db.write(con):
                 snap = changes.snapshot(con, session_id, change.change_id)
-                verdict = changes.judge(snap, base, change, self._table_of, self._check)
+                verdict = changes.judge(snap, base, change, self._table_of, self._check,
+                                        checked_on)
                 return self._record(con, session_id, snap, base, change, verdict, keep_answer)
         with db.read(con):
             snap = changes.snapshot(con, session_id, change.change_id)
-        verdict = changes.judge(snap, base, change, self._table_of, self._check)
+        verdict = changes.judge(snap, base, change, self._table_of, self._check, checked_on)
         if snap.prior is not None:
             return verdict  # an earlier answer: nothing to write
         with db.write(con):

@@ -97,7 +97,7 @@ def _facts(name: str, values, kind: str) -> list[str]:
         lo, hi = present.min(), present.max()
         if lo == hi:
             return [f"Column '{name}' is constant (every value is {number_text(lo)})."]
-        if (present == np.floor(present)).all() and hi - lo < 1e6:
+        if (present == np.floor(present)).all() and hi < lo + 1e6:  # hi - lo may overflow
             levels = pd.unique(present)
             if 3 <= len(levels) <= 10 and present.size >= 5 * len(levels):
                 shown = ", ".join(number_text(x) for x in np.sort(levels))

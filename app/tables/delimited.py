@@ -22,6 +22,7 @@ import pyarrow.types as pat
 from app.tables import sniff
 from app.tables.build import one_column
 from app.tables.errors import InputError
+from app.tables.limits import check_columns
 from app.tables.raw import Raw
 from app.tables.text import MISSING_MARKERS
 
@@ -33,10 +34,12 @@ class _Legacy(Exception):
     """The file turned out not to be UTF-8 after all."""
 
 
-def read_text(data: bytes, where: str, ext: str, declared: Iterable[str] = ()) -> Raw:
-    """Read delimited text (already decompressed) into a Raw table of Arrow columns."""
+def read_text(data: bytes, where: str, ext: str, declared: Iterable[str] = (),
+              max_columns: int | None = None) -> Raw:
+    """Read delimited text (already decompressed) into a Raw table of Arrow columns.
+    max_columns: refuse a header with more names as soon as it is read (None: no limit)."""
     notes: list[str] = []
-    data, off = _unbom(data, notes)
+    data, off = _unbom(data, notes, where)
     if not NON_SPACE.search(data, off):
         raise InputError(
             "The file is empty", where, "Choose a file with a header row and data rows"
@@ -44,7 +47,7 @@ def read_text(data: bytes, where: str, ext: str, declared: Iterable[str] = ()) -
     sample = data[off : off + sniff.SAMPLE_BYTES]
     if sniff.looks_binary(sample):
         raise InputError(
-            "The file holds binary data, not text",
+            "The file holds binary data, not text" + _first_control(sample, off),
             where,
             f"Choose a table saved as {sniff.SUPPORTED}",
         )
@@ -57,6 +60,9 @@ def read_text(data: bytes, where: str, ext: str, declared: Iterable[str] = ()) -
         raise one_column(where, first[0])
     decimal = sniff.sniff_decimal(text, delimiter)
     header = next(iter(_records(text, delimiter)), [])
+    # The sample may cut a very long header short: its count is then a lower bound.
+    check_columns(len(header), max_columns, where, at_least=not re.search("[\r\n]", text))
+    _check_quotes(data, off, delimiter, where)
     try:
         table, one_line_rows = _arrow(data, off, delimiter, decimal, header, set(declared))
     except _Legacy:
@@ -84,13 +90,74 @@ def read_text(data: bytes, where: str, ext: str, declared: Iterable[str] = ()) -
     )
 
 
-def _unbom(data: bytes, notes: list[str]) -> tuple[bytes, int]:
+def _first_control(sample: bytes, off: int) -> str:
+    """Where the first byte that text does not hold is (sample starts at byte off + 1)."""
+    pos = next((i for i, b in enumerate(sample) if b in sniff.CONTROL_BYTES), None)
+    if pos is None:
+        return ""
+    what = "a NUL byte" if sample[pos] == 0 else f"the control character 0x{sample[pos]:02X}"
+    line = sample.count(b"\n", 0, pos) + 1
+    return f" ({what} at byte {off + pos + 1:,}, on line {line:,})"
+
+
+def _unbom(data: bytes, notes: list[str], where: str) -> tuple[bytes, int]:
     if data.startswith(b"\xef\xbb\xbf"):
         return data, 3
-    if data.startswith((b"\xff\xfe", b"\xfe\xff")):
-        notes.append("The file is UTF-16 text; it was converted to UTF-8.")
-        return data.decode("utf-16").encode("utf-8"), 0
-    return data, 0
+    if data.startswith((b"\xff\xfe\x00\x00", b"\x00\x00\xfe\xff")):
+        encoding, label = "utf-32", "UTF-32"
+    elif data.startswith((b"\xff\xfe", b"\xfe\xff")):
+        encoding, label = "utf-16", "UTF-16"
+    else:
+        encoding = _utf16_without_bom(data[: sniff.SAMPLE_BYTES])
+        if encoding is None:
+            return data, 0
+        label = "UTF-16 (without a byte order mark)"
+    try:
+        text = data.decode(encoding)
+    except UnicodeDecodeError as e:
+        if data.startswith((b"\xff\xfe", b"\xfe\xff", b"\x00\x00\xfe\xff")):
+            raise InputError(f"The file is marked as {label} text but byte {e.start + 1:,} "
+                             "is not valid there (the file may be cut short or damaged)",
+                             where, "Save the file again, preferably as UTF-8") from None
+        return data, 0  # not UTF-16 after all: the binary check will say what it is
+    notes.append(f"The file is {label} text; it was converted to UTF-8.")
+    return text.lstrip("\ufeff").encode("utf-8"), 0
+
+
+def _utf16_without_bom(sample: bytes) -> str | None:
+    """'utf-16-le' or 'utf-16-be' for mostly-ASCII UTF-16 text without a byte order mark
+    (every other byte NUL), else None."""
+    sample = sample[: len(sample) // 2 * 2]
+    if len(sample) < 4:
+        return None
+    even, odd = sample[0::2], sample[1::2]
+    for enc, zeros, chars in (("utf-16-le", odd, even), ("utf-16-be", even, odd)):
+        if zeros.count(0) >= 0.9 * len(zeros) and chars.count(0) <= 0.1 * len(chars):
+            return enc
+    return None
+
+
+def _check_quotes(data: bytes, off: int, delimiter: str, where: str) -> None:
+    """Refuse a file that ends inside a quoted field: pyarrow would read the rest of the file
+    into one cell. An odd number of quotes is the cheap sign; the scan finds the line."""
+    if data.count(b'"', off) % 2 == 0:
+        return
+    text = data[off:].decode("utf-8", errors="replace")
+    reader = csv.reader(io.StringIO(text, newline=""), delimiter=delimiter, quotechar='"',
+                        strict=True)
+    start = 1
+    try:
+        for _ in reader:
+            start = reader.line_num + 1
+    except csv.Error as e:
+        if "unexpected end of data" not in str(e):
+            return  # another quirk, which pyarrow reads leniently; not this one
+        raise InputError(
+            f'A quote (") opened on line {start} is never closed, so the rest of the file '
+            "would be read as one cell",
+            f"{where}, line {start}",
+            'Close the quote, or double a quote that is part of the text ("")',
+        ) from None
 
 
 def _transcode(data: bytes, off: int, notes: list[str]) -> tuple[bytes, int]:

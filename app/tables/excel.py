@@ -18,10 +18,14 @@ import pandas as pd
 import pyarrow as pa
 
 from app.tables.errors import InputError
+from app.tables.limits import check_columns, check_rows, check_unpacked
 from app.tables.raw import Raw
 
 
-def read_excel(data: bytes, where: str, sheet: str | int | None, max_bytes: int) -> Raw:
+def read_excel(data: bytes, where: str, sheet: str | int | None, max_bytes: int,
+               shape: tuple[int | None, int | None] = (None, None)) -> Raw:
+    """shape: the most data rows and columns to accept (None: no limit); a sheet beyond
+    them is refused while it is read, before all of it is in memory."""
     _check_unpacked_size(data, where, max_bytes)
     try:
         book = openpyxl.load_workbook(io.BytesIO(data), read_only=True, data_only=True)
@@ -35,7 +39,7 @@ def read_excel(data: bytes, where: str, sheet: str | int | None, max_bytes: int)
         ws, title, notes = _pick_sheet(book, sheet, where)
         where = f"{where}, sheet '{title}'"
         ws.reset_dimensions()
-        rows = [(i, r) for i, r in enumerate(ws.iter_rows(values_only=True), start=1) if _filled(r)]
+        rows = _rows(ws, where, *shape)
     finally:
         book.close()
     if not rows:
@@ -62,12 +66,29 @@ def _check_unpacked_size(data: bytes, where: str, max_bytes: int) -> None:
             unpacked = sum(i.file_size for i in z.infolist())
     except zipfile.BadZipFile:
         return  # openpyxl will say it is damaged
+    check_unpacked(unpacked, len(data), where, "workbook")
     if unpacked > max_bytes * 4:
         raise InputError(
             f"The workbook unpacks to {unpacked / 1e6:,.0f} MB, over the limit",
             where,
             "Save the sheet you need as CSV or Parquet, or use a smaller part of it",
         )
+
+
+def _rows(ws, where: str, max_rows: int | None, max_columns: int | None) -> list:
+    """The filled rows of a sheet with their numbers, refused as soon as there are too many
+    rows (header included) or the header is too wide."""
+    rows: list = []
+    for i, r in enumerate(ws.iter_rows(values_only=True), start=1):
+        if not _filled(r):
+            continue
+        if not rows:
+            width = max(k + 1 for k, v in enumerate(r) if _present(v))
+            check_columns(width, max_columns, where)
+        rows.append((i, r))
+        if max_rows is not None and len(rows) > max_rows + 1:
+            check_rows(len(rows) - 1, max_rows, where, at_least=True)
+    return rows
 
 
 def _pick_sheet(book, sheet, where):

@@ -12,10 +12,10 @@ import pyarrow as pa
 import pyarrow.parquet as pq
 
 from app.tables.errors import InputError
+from app.tables.limits import check_columns, check_rows
 from app.tables.raw import Raw
 
 PANDAS_INDEX = re.compile(r"^__index_level_\d+__$")
-
 
 
 def unreadable(e: Exception, where: str) -> InputError:
@@ -26,7 +26,11 @@ def unreadable(e: Exception, where: str) -> InputError:
         "Write or download the file again",
     )
 
-def read_parquet(data: bytes, where: str) -> Raw:
+
+def read_parquet(data: bytes, where: str,
+                 shape: tuple[int | None, int | None] = (None, None)) -> Raw:
+    """shape: the most data rows and columns to accept (None: no limit), checked on the
+    file's footer before any column is read."""
     if not (data.startswith(b"PAR1") and data.endswith(b"PAR1") and len(data) >= 12):
         raise InputError(
             "The file starts like a Parquet file but is damaged or incomplete",
@@ -34,6 +38,9 @@ def read_parquet(data: bytes, where: str) -> Raw:
             "Write or download the file again",
         )
     try:
+        meta = pq.ParquetFile(pa.BufferReader(data)).metadata
+        check_columns(meta.num_columns, shape[1], where)
+        check_rows(meta.num_rows, shape[0], where)
         table = pq.read_table(pa.BufferReader(data))
     except (pa.ArrowException, OSError, ValueError) as e:
         raise unreadable(e, where) from None

@@ -18,6 +18,7 @@ from app.tables.delimited import read_text
 from app.tables.errors import InputError
 from app.tables.excel import read_excel
 from app.tables.kinds import with_kinds
+from app.tables.limits import check_cells, check_columns, check_rows, check_unpacked
 from app.tables.parquet import read_parquet
 from app.tables.table import Table
 
@@ -38,11 +39,15 @@ def read_table(
     max_bytes: int = MAX_BYTES,
     name: str | None = None,
     kinds: dict[str, str] | None = None,
+    max_rows: int | None = None,
+    max_columns: int | None = None,
 ) -> Table:
     """Read a CSV/TSV (optionally .gz), .xlsx or Parquet file into a Table.
 
     sheet: Excel sheet name, or index counting from 0 (default: the first sheet).
     max_bytes: refuse files (and decompressed content) larger than this.
+    max_rows, max_columns: refuse tables with more data rows or columns (None: no limit);
+        columns are counted as soon as the header is read.
     name: the file name to use in messages and Table.source (default: path as given).
     kinds: declared kinds for some columns ({"zip": "categorical"}); these skip inference.
     Raises InputError for anything a user can fix.
@@ -63,7 +68,7 @@ def read_table(
         raise InputError(
             "The file cannot be opened (permission denied)", where, "Check its permissions"
         ) from None
-    return _read(data, p.name, where, sheet, max_bytes, kinds)
+    return _read(data, p.name, where, sheet, max_bytes, kinds, (max_rows, max_columns))
 
 
 def read_bytes(
@@ -74,11 +79,14 @@ def read_bytes(
     max_bytes: int = MAX_BYTES,
     name: str | None = None,
     kinds: dict[str, str] | None = None,
+    max_rows: int | None = None,
+    max_columns: int | None = None,
 ) -> Table:
     """Like read_table, for a file's content already in memory (web uploads)."""
     where = name or filename
     _check_size(len(data), max_bytes, where)
-    return _read(bytes(data), filename, where, sheet, max_bytes, kinds)
+    return _read(bytes(data), filename, where, sheet, max_bytes, kinds,
+                 (max_rows, max_columns))
 
 
 def missing_summary(table: Table) -> dict[str, int]:
@@ -99,24 +107,32 @@ def _mb(n: int) -> str:
     return f"{n / 1e6:,.1f} MB" if n >= 100_000 else f"{n:,} bytes"
 
 
-def _read(data: bytes, filename: str, where: str, sheet, max_bytes: int, kinds) -> Table:
+def _read(data: bytes, filename: str, where: str, sheet, max_bytes: int, kinds,
+          shape: tuple[int | None, int | None]) -> Table:
     ext, gz = sniff.suffixes(filename)
     notes: list[str] = []
     kind = sniff.content_kind(data[:16])
     if kind == "gzip":
         data = _gunzip(data, where, max_bytes)
         kind = sniff.content_kind(data[:16])
+        if kind == "gzip":
+            raise InputError("The file is gzip-compressed twice", where,
+                             "Decompress it once (gunzip) and open the result")
         if not gz:
             notes.append("The file is gzip-compressed; it was decompressed.")
     elif gz:
         notes.append("The file name ends in .gz but the content is not compressed.")
     fmt = _format(data, kind, ext, where)
+    max_rows, max_columns = shape
     if fmt == "excel":
-        raw = read_excel(data, where, sheet, max_bytes)
+        raw = read_excel(data, where, sheet, max_bytes, shape)
     elif fmt == "parquet":
-        raw = read_parquet(data, where)
+        raw = read_parquet(data, where, shape)
     else:
-        raw = read_text(data, where, ext, declared=(kinds or {}).keys())
+        raw = read_text(data, where, ext, declared=(kinds or {}).keys(), max_columns=max_columns)
+    check_columns(len(raw.names), max_columns, raw.where)
+    check_rows(raw.n_rows, max_rows, raw.where)
+    check_cells(raw)
     if fmt != "excel" and sheet is not None:
         notes.append("A sheet was chosen, but only Excel workbooks have sheets; it was ignored.")
     expected = {"excel": sniff.EXCEL_EXTS, "parquet": sniff.PARQUET_EXTS}.get(fmt)
@@ -129,7 +145,7 @@ def _read(data: bytes, filename: str, where: str, sheet, max_bytes: int, kinds) 
 
 def _format(data: bytes, kind: str | None, ext: str, where: str) -> str:
     if kind == "zip":
-        return sniff.zip_kind(data)
+        return sniff.zip_kind(data, where)
     if kind == "parquet":
         return "parquet"
     foreign = sniff.foreign_kind(data[:16])
@@ -138,6 +154,10 @@ def _format(data: bytes, kind: str | None, ext: str, where: str) -> str:
         if "old-style" in foreign:
             todo = "Open it in Excel and save it as .xlsx (without a password) or CSV"
         raise InputError(f"This is {foreign}, not a table rankscope can read", where, todo)
+    other = sniff.document_kind(data[: sniff.SAMPLE_BYTES])
+    if other and ext not in UNSUPPORTED_EXTS:
+        raise InputError(f"This looks like {other}, not a table of rows and columns", where,
+                         f"Save the table as {sniff.SUPPORTED}")
     binary = sniff.looks_binary(data[: sniff.SAMPLE_BYTES])
     if ext in sniff.EXCEL_EXTS or ext in sniff.PARQUET_EXTS:
         label = "an Excel workbook" if ext in sniff.EXCEL_EXTS else "a Parquet file"
@@ -161,15 +181,25 @@ def _format(data: bytes, kind: str | None, ext: str, where: str) -> str:
 
 
 def _gunzip(data: bytes, where: str, max_bytes: int) -> bytes:
+    # In blocks, so a 'gzip bomb' is refused after the first hundred MB, not at the limit.
+    parts: list[bytes] = []
+    size = 0
     try:
         with gzip.GzipFile(fileobj=io.BytesIO(data)) as f:
-            out = f.read(max_bytes + 1)
+            while size <= max_bytes:
+                block = f.read(min(1 << 24, max_bytes + 1 - size))
+                if not block:
+                    break
+                parts.append(block)
+                size += len(block)
+                check_unpacked(size, len(data), where, "gzip-compressed file")
     except (OSError, EOFError, zlib.error):
         raise InputError(
             "The file is gzip-compressed but damaged or incomplete",
             where,
             "Compress or download the file again",
         ) from None
+    out = b"".join(parts)
     if len(out) > max_bytes:
         raise InputError(
             f"The file decompresses to more than the limit of {_mb(max_bytes)}",

@@ -53,14 +53,14 @@ def suffixes(filename: str) -> tuple[str, bool]:
     return ext, False
 
 
-def zip_kind(data: bytes) -> str:
+def zip_kind(data: bytes, where: str = "") -> str:
     """'excel' for an .xlsx workbook, else raise naming what the ZIP holds."""
     try:
         with zipfile.ZipFile(io.BytesIO(data)) as z:
             names = z.namelist()
             mimetype = z.read("mimetype").decode("ascii", "replace") if "mimetype" in names else ""
     except (zipfile.BadZipFile, EOFError, ValueError) as e:
-        raise _damaged("a ZIP-based file (such as .xlsx)", "") from e
+        raise _damaged("a ZIP-based file (such as .xlsx)", where) from e
     if any(n.startswith("xl/") for n in names):
         return "excel"
     if any(n.startswith("word/") for n in names):
@@ -75,7 +75,7 @@ def zip_kind(data: bytes) -> str:
         what = "a ZIP archive"
     raise InputError(
         f"This is {what}, not a table rankscope can read",
-        "",
+        where,
         f"Save the table as {SUPPORTED}",
     )
 
@@ -105,6 +105,23 @@ def foreign_kind(head: bytes) -> str | None:
     """What a person would call a non-table file, from its first bytes."""
     for magic, what in MAGIC:
         if head.startswith(magic):
+            return what
+    return None
+
+
+DOCUMENT_STARTS = [
+    (("<!doctype html", "<html", "<head", "<body", "<table"), "an HTML page"),
+    (("<?xml",), "an XML document"),
+    (('{"', "{\n", "{\r", "[{", "[[", '["', "[\n", "[\r"), "JSON data"),
+]
+
+
+def document_kind(sample: bytes) -> str | None:
+    """'an HTML page', 'an XML document' or 'JSON data' for text that is one of these rather
+    than delimited rows (judged by how it starts; a CSV header never starts so)."""
+    head = sample[:64].lstrip(b"\xef\xbb\xbf \t\r\n").decode("latin-1").lower()
+    for starts, what in DOCUMENT_STARTS:
+        if head.startswith(starts):
             return what
     return None
 

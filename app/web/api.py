@@ -18,6 +18,9 @@ from app.store import Applied, Conflict, SessionNotFound
 from app.tables.errors import InputError
 from app.tables.read import read_bytes
 from app.web.access import COOKIE_SECONDS, can_edit, cookie_name
+from app.web.bodies import safe_text, sound_text
+from app.web.budget import AnalysisTooSlow
+from app.web.limits import Limits
 from app.web.live import Hub
 from app.web.render import current_html
 from app.web.state import CHANGE_KINDS, Change, Session
@@ -30,8 +33,6 @@ router = APIRouter(prefix="/api")
 log = logging.getLogger("rankscope.web")
 T = TypeVar("T")
 
-#: Uploads above this size are refused before reading: the table is held in memory.
-MAX_UPLOAD_BYTES = 1 << 30
 EXAMPLE = ('Send {"kind": "step", "payload": {"step": "drop", "column": "x"}, '
            '"base_version": 3, "change_id": "a-new-id"}')
 
@@ -49,7 +50,7 @@ def guarded(what: str, fn: Callable[..., T], *args: Any) -> T:
     (and the session is unchanged, as the Workbench stores only what succeeded)."""
     try:
         return fn(*args)
-    except (InputError, UnknownSession, SessionNotFound):
+    except (InputError, UnknownSession, SessionNotFound, AnalysisTooSlow):
         raise
     except Exception as exc:  # noqa: BLE001 - never a 500 for a user's file or step
         log.exception("%s failed", what)
@@ -98,6 +99,7 @@ def versioning(body: Any) -> tuple[int | None, str | None]:
     change is made on the current version and a retry would be a new change)."""
     if not isinstance(body, dict):
         return None, None
+    sound_text(body)
     return body.get("base_version"), body.get("change_id")
 
 
@@ -105,12 +107,16 @@ def versioning(body: Any) -> tuple[int | None, str | None]:
 def upload(request: Request, file: Annotated[UploadFile, File()]) -> JSONResponse:
     """Read an uploaded table into a new session; answers with the overview's address and
     leaves the session's edit key in a cookie for the uploader."""
-    name = file.filename or "upload"
-    data = file.file.read(MAX_UPLOAD_BYTES + 1)
-    if len(data) > MAX_UPLOAD_BYTES:
-        raise InputError(f"the file is larger than {MAX_UPLOAD_BYTES >> 20} MiB", quoted(name),
-                         "Use the command line for tables this large")
-    table = guarded(f"reading {quoted(name)}", read_bytes, data, name)
+    name = safe_text(file.filename or "upload")  # the client's bytes, perhaps not UTF-8
+    limits: Limits = request.app.state.limits
+    data = file.file.read(limits.max_upload_bytes + 1)
+    if len(data) > limits.max_upload_bytes:
+        raise InputError(f"the file is larger than this server's limit of "
+                         f"{limits.upload_text()}", quoted(name),
+                         "Use a smaller file, start the server with a higher --max-upload-mb, "
+                         "or diagnose it with `rankscope check FILE --stream`")
+    table = guarded(f"reading {quoted(name)}", lambda: read_bytes(data, name,
+                                                                  **limits.reading()))
     session, made = bench_of(request).start(data, name, table)
     sid = session.session_id
     response = JSONResponse({"session": sid, "url": f"/s/{sid}", "rows": table.n_rows,
@@ -155,7 +161,7 @@ def redo(request: Request, session_id: str, body: Annotated[Any, Body()] = None
 @router.post("/s/{session_id}/pins")
 def pin(request: Request, session_id: str, body: Annotated[Any, Body()] = None) -> JSONResponse:
     """Pin the current fit. Body (optional): {"label": "..."}."""
-    label = body.get("label") if isinstance(body, dict) else None
+    label = sound_text(body).get("label") if isinstance(body, dict) else None
     bench = bench_of(request)
     pinned = guarded("pinning", bench.pin, session_id, str(label or ""))
     live_of(request).notify(session_id)

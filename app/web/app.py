@@ -8,16 +8,25 @@ import secrets
 import shutil
 import tempfile
 import weakref
+from collections.abc import Collection
+from urllib.parse import urlsplit
 
 from fastapi import FastAPI, Request
 from fastapi.exceptions import RequestValidationError
 from fastapi.responses import JSONResponse, Response
 from fastapi.staticfiles import StaticFiles
+from starlette.exceptions import HTTPException as StarletteHTTPException
 
 from app.store import SessionNotFound, Store
 from app.tables.errors import InputError
 from app.web import api, assets, downloads, pages, sessions
 from app.web.access import AccessGate
+from app.web.bodies import safe_text
+from app.web.bodysize import BodyLimit
+from app.web.budget import AnalysisTooSlow, Budget
+from app.web.guard import DEFAULT_HOSTS, Guard
+from app.web.lanes import RequestThreads
+from app.web.limits import Limits
 from app.web.live import Hub
 from app.web.render import STATIC, render
 from app.web.stored import StoredSessions
@@ -25,6 +34,18 @@ from app.web.workbench import UnknownSession, Workbench
 
 GONE = ("There is no session at this address: it may have been deleted, or the link may be "
         "incomplete.")
+
+
+#: Starlette's and FastAPI's terse reasons, in words that say what to do.
+WORDED = {
+    "There was an error parsing the body": (
+        "The request body could not be read: it is not valid JSON (or not the form this "
+        "address expects). Send a JSON object, as the page's controls do."),
+    "Not Found": "There is nothing at this address. Check the link, or start from the "
+                 "start page.",
+    "Method Not Allowed": "This address does not take this kind of request (method). Use "
+                          "the page's controls.",
+}
 
 
 def _wants_json(request: Request) -> bool:
@@ -47,7 +68,9 @@ def _throwaway_store(app: FastAPI) -> Store:
 
 def create_app(store: Store | None = None, *, share: bool = False,
                public_url: str | None = None,
-               bench: type[Workbench] = Workbench) -> FastAPI:
+               bench: type[Workbench] = Workbench,
+               allowed_hosts: Collection[str] | None = None,
+               limits: Limits | None = None) -> FastAPI:
     """A new app on the given session store (default: a throwaway one).
 
     share: every request needs a token (the owner key, or a session's edit or view
@@ -56,17 +79,35 @@ def create_app(store: Store | None = None, *, share: bool = False,
     the address of the request asking for them).
     app.state.owner_key opens the start page and every session when sharing.
     bench: the Workbench class (a ReducedBench when serving a dataset reduced on Dask).
+    allowed_hosts: the Host header values answered ("name:port", or "name" for any port);
+    default: the loopback names and Starlette's "testserver" on any port, and public_url's
+    address. server.run sets app.state.allowed_hosts from the address it serves on.
+    limits: upload size, table shape and analysis time (default: Limits()), kept in
+    app.state.limits.
     """
     app = FastAPI(title="rankscope", docs_url=None, redoc_url=None, openapi_url=None)
     db = store if store is not None else _throwaway_store(app)
     app.state.sessions = StoredSessions(db)
     app.state.bench = bench(app.state.sessions)
+    app.state.limits = limits = limits or Limits()
+    app.state.bench.budget = Budget(limits.analysis_seconds, limits.workers)
     app.state.live = Hub(app.state.sessions.stamp)
     app.state.share = share
     app.state.public_url = public_url
     app.state.owner_key = secrets.token_urlsafe(32)
+    if allowed_hosts is None:
+        allowed_hosts = DEFAULT_HOSTS | ({urlsplit(public_url).netloc.lower()} if public_url
+                                         else set())
+    app.state.allowed_hosts = frozenset(allowed_hosts)
+    app.add_middleware(RequestThreads)  # a few requests at a time, in turn (see lanes.py)
+    app.add_middleware(BodyLimit, limit=limits.max_upload_bytes,
+                       limit_text=limits.upload_text())
     app.add_middleware(AccessGate, access=app.state.sessions.access, share=share,
                        owner_key=app.state.owner_key)
+    # Added last, so it runs first: a request for another host never reaches a token check.
+    # (The state, not the app, in the closure: no cycle keeps a throwaway store alive.)
+    state = app.state
+    app.add_middleware(Guard, hosts=lambda: state.allowed_hosts)
     app.mount("/static", StaticFiles(directory=str(STATIC)), name="static")
     app.include_router(assets.router)
     app.include_router(pages.router)
@@ -77,9 +118,10 @@ def create_app(store: Store | None = None, *, share: bool = False,
     @app.exception_handler(InputError)
     async def input_error(request: Request, exc: InputError) -> Response:
         # A user mistake: say what it was, with a 4xx, on a page or as JSON.
+        text = safe_text(exc.message)  # it may quote text that is not Unicode
         if _wants_json(request):
-            return JSONResponse({"error": exc.message}, status_code=400)
-        return pages.message_page(exc.message, 400)
+            return JSONResponse({"error": text}, status_code=400)
+        return pages.message_page(text, 400)
 
     @app.exception_handler(RequestValidationError)
     async def bad_request(request: Request, exc: RequestValidationError) -> Response:
@@ -88,7 +130,29 @@ def create_app(store: Store | None = None, *, share: bool = False,
                  for e in exc.errors()]
         text = InputError("the request is not what this address expects", "; ".join(parts),
                           "Use the page's controls").message
-        return JSONResponse({"error": text}, status_code=400)
+        return JSONResponse({"error": safe_text(text)}, status_code=400)
+
+    @app.exception_handler(StarletteHTTPException)
+    async def http_error(request: Request, exc: StarletteHTTPException) -> Response:
+        # Starlette's own refusals (unknown address, wrong method, a body that does not
+        # parse) in the same {"error": ...} shape as every other refusal.
+        text = WORDED.get(str(exc.detail), str(exc.detail))
+        if _wants_json(request):
+            return JSONResponse({"error": text}, status_code=exc.status_code,
+                                headers=exc.headers)
+        page = pages.message_page(text, exc.status_code)
+        page.headers.update(exc.headers or {})
+        return page
+
+    @app.exception_handler(AnalysisTooSlow)
+    async def too_slow(request: Request, exc: AnalysisTooSlow) -> Response:
+        # Not the user's mistake and not a crash: the server is busy (RFC 9110 §15.6.4).
+        retry = {"Retry-After": str(max(int(exc.seconds), 1))}
+        if _wants_json(request):
+            return JSONResponse({"error": exc.message}, status_code=503, headers=retry)
+        page = pages.message_page(exc.message, 503)
+        page.headers.update(retry)
+        return page
 
     async def no_session(request: Request, exc: Exception) -> Response:
         if _wants_json(request):

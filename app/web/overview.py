@@ -27,7 +27,11 @@ def _numeric(s: pd.Series) -> list[tuple[str, object]]:
     v = s.dropna().astype(float)
     if v.empty:
         return []
-    return [("mean", float(v.mean())), ("SD", float(v.std(ddof=1)) if len(v) > 1 else None),
+    # Scaled by the largest magnitude, so sums of values near 1e308 do not overflow.
+    scale = float(v.abs().max()) or 1.0
+    u = v / scale
+    return [("mean", float(u.mean()) * scale),
+            ("SD", float(u.std(ddof=1)) * scale if len(v) > 1 else None),
             ("min", float(v.min())), ("max", float(v.max())), ("distinct", int(v.nunique()))]
 
 

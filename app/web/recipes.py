@@ -11,6 +11,7 @@ from dataclasses import dataclass
 from app.report.export import import_recipe
 from app.store import Conflict
 from app.tables.errors import InputError
+from app.web.bodies import sound_text
 from app.web.state import Change
 from app.web.workbench import Workbench
 
@@ -41,6 +42,7 @@ def import_steps(bench: Workbench, session_id: str, data: bytes, source: str,
                          "import id", "Send a new random id with each import")
     session = bench.session(session_id)
     steps = list(import_recipe(data, session.table, source).steps)
+    sound_text(steps, source)
     if not steps:
         raise InputError("the recipe has no steps", source, "Choose a recipe that changes "
                          "something")

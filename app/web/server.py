@@ -19,6 +19,8 @@ from app.store import Store, default_root
 from app.store.records import Created
 from app.tables.read import read_table
 from app.web.app import create_app
+from app.web.guard import hosts_for
+from app.web.limits import Limits
 from app.web.links import link
 from app.web.state import Session
 
@@ -79,7 +81,8 @@ def _announce(base: str, share: bool) -> Callable[[Session, Created], None]:
 def run(path: str | os.PathLike | None, host: str = "127.0.0.1", port: int = 8765,
         open_browser: bool = True, *, data_dir: str | os.PathLike | None = None,
         share: bool = False, engine: str = "memory", scheduler: str | None = None,
-        response: str | None = None) -> None:
+        response: str | None = None, limits: Limits | None = None,
+        host_names: list[str] | None = None) -> None:
     """Serve the app with sessions kept in data_dir (default ~/.rankscope). With a path,
     read it first (an InputError is raised before anything is saved or listens) and open
     it as a new session. share, or any address beyond this computer, makes every request
@@ -87,11 +90,15 @@ def run(path: str | os.PathLike | None, host: str = "127.0.0.1", port: int = 876
     folder, reduced once on Dask (scheduler: a cluster's address, None: a local cluster)
     with `response` as y; its session analyses that factor. engine "stream": path is one
     file, streamed into its factor in the background while the browser shows its progress
-    (/reducing, with a Cancel button); the session opens when it is done."""
+    (/reducing, with a Cancel button); the session opens when it is done. limits: upload
+    size, table shape and analysis time (default: Limits()), also applied to path.
+    host_names: further names (without port) the server answers to, beyond loopback, the
+    bind address and the printed address; any other Host header is refused."""
+    limits = limits or Limits()
     table = data = None
     if path is not None and engine not in ("dask", "stream"):
         name = Path(path).name
-        table = read_table(path, name=name)
+        table = read_table(path, name=name, **limits.reading())
         data = Path(path).read_bytes()
     share = share or not is_loopback(host)
     base = base_url(reachable_host(host), port)
@@ -111,7 +118,9 @@ def run(path: str | os.PathLike | None, host: str = "127.0.0.1", port: int = 876
         store = app.state.sessions.db
     else:
         store = Store(data_dir if data_dir is not None else default_root())
-        app = create_app(store, share=share, public_url=public_url)
+        app = create_app(store, share=share, public_url=public_url, limits=limits)
+    app.state.allowed_hosts = hosts_for(host, port, reachable_host(host),
+                                        *(host_names or ()))  # DNS rebinding
     lines = []
     start = f"{base}/"
     if share:

@@ -14,6 +14,7 @@ from app.tables.errors import InputError
 from app.web import links
 from app.web.access import can_edit, cookie_name, role_of, token_of
 from app.web.api import bench_of, guarded, live_of, state_of
+from app.web.bodies import sound_text
 from app.web.recipes import import_steps
 from app.web.stored import StoredSessions
 from app.web.workbench import UnknownSession
@@ -44,7 +45,7 @@ def recent(request: Request) -> JSONResponse:
 def rename(request: Request, session_id: str, body: Annotated[Any, Body()] = None
            ) -> JSONResponse:
     """Body: {"title": "..."}."""
-    title = body.get("title") if isinstance(body, dict) else None
+    title = sound_text(body).get("title") if isinstance(body, dict) else None
     saved = sessions_of(request).rename(session_id, title)  # InputError for a bad title
     live_of(request).notify(session_id)
     return JSONResponse({"session": session_id, "title": saved})
@@ -56,7 +57,8 @@ def delete(request: Request, session_id: str) -> JSONResponse:
     sessions_of(request).delete(session_id)
     live_of(request).notify(session_id)  # open pages hear that it is gone
     response = JSONResponse({"deleted": session_id})
-    response.delete_cookie(cookie_name(session_id))
+    # Same attributes as when it was set (RFC 6265bis): HttpOnly, SameSite=Lax.
+    response.delete_cookie(cookie_name(session_id), httponly=True, samesite="lax")
     return response
 
 

@@ -57,9 +57,10 @@ class StoredSessions:
             return None
 
     def change(self, session_id: str, base_version: int, kind: str, payload: dict[str, Any],
-               change_id: str | None) -> Applied | Conflict:
+               change_id: str | None, checked_on: int | None = None) -> Applied | Conflict:
         return self.db.apply_change(session_id, base_version,
-                                    StoredChange(kind, payload, change_id))
+                                    StoredChange(kind, payload, change_id),
+                                    checked_on=checked_on)
 
     def add_pin(self, session_id: str, label: str, fit: dict[str, Any], *, version: int,
                 position: int, columns: list[str], rank: int) -> PinnedFit:

@@ -6,10 +6,9 @@ Calls the recipe and the core only; never does linear algebra itself, never rend
 from __future__ import annotations
 
 import json
-import math
+import logging
 import threading
 import time
-from collections import OrderedDict
 from dataclasses import replace
 from typing import Any
 
@@ -20,16 +19,21 @@ from app.design.design import Design
 from app.design.names import quoted
 from app.design.recipe import Recipe
 from app.design.replay import trace_design
-from app.design.steps import describe_step
+from app.design.steps import describe_step, finite_number, short_number
 from app.store.records import Applied, Conflict, Created
 from app.tables.errors import InputError
 from app.tables.table import Table
 from app.web import refit
+from app.web.budget import Budget
+from app.web.recent import Recent, cells
 from app.web.state import Change, PinnedFit, Session, SessionStore
 from app.web.workbench_types import LEVEL_MENU_LIMIT, Analysis, Settings, WorkingColumn
 
 __all__ = ["LEVEL_MENU_LIMIT", "Analysis", "Settings", "UnknownSession", "WorkingColumn",
            "Workbench", "analyse", "settings_of"]
+
+
+log = logging.getLogger("rankscope.web")
 
 
 class UnknownSession(KeyError):
@@ -84,8 +88,9 @@ def check_change(change: Change) -> Change:
         if isinstance(value, bool) or not isinstance(value, int | float):
             raise InputError(f"a ridge penalty must be a number, not {value!r}", "ridge penalty",
                              "Enter a number of 0 or more, or clear the field")
-        if not math.isfinite(value) or value < 0:
-            raise InputError(f"a ridge penalty must be 0 or more, not {value!r}", "ridge penalty",
+        if not finite_number(value) or value < 0:
+            raise InputError(f"a ridge penalty must be a finite number of 0 or more, not "
+                             f"{short_number(value)}", "ridge penalty",
                              "Enter a number of 0 or more (in units of the correlation matrix)")
         return Change("ridge", {"penalty": float(value)})
     raise InputError(f"unknown kind of change {change.kind!r}", "", "Use step, keep or ridge")
@@ -134,14 +139,21 @@ class Workbench:
     Every change is tried on a copy of the session first; only a change whose analysis
     succeeds is stored, so a failing step never touches what the session holds. Changes
     carry the version they were made on; the store decides what a late one means.
+    Analyses run within `budget` (time and number at once); one past its time is cached
+    when it ends, so the retry answers at once. Recent analyses and edit engines are kept
+    by size (app.web.recent): at least cache_size of each, and more while they are small, so
+    every open session's next change is one edit away.
     """
 
-    def __init__(self, store: SessionStore, cache_size: int = 12) -> None:
+    def __init__(self, store: SessionStore, cache_size: int = 12,
+                 budget: Budget | None = None) -> None:
         self.store = store
-        self._cache: OrderedDict[tuple[str, int, Settings], Analysis] = OrderedDict()
-        self._cache_size = cache_size
+        self.budget = budget or Budget()
+        self._cache: Recent[tuple[str, int, Settings], Analysis] = Recent(
+            lambda a: cells(len(a.columns)), cache_size)
         # The edit engines of recent recipe prefixes, so the next step is one edit away.
-        self._engines: OrderedDict[tuple[str, int, tuple[str, ...]], refit.Held] = OrderedDict()
+        self._engines: Recent[tuple[str, int, tuple[str, ...]], refit.Held] = Recent(
+            lambda h: cells(len(h.engine.columns)), cache_size)
         self._guard = threading.Lock()
 
     def session(self, session_id: str) -> Session:
@@ -159,12 +171,27 @@ class Workbench:
             if hit is not None:
                 self._cache.move_to_end(key)
                 return hit
-        result = self._analyse(session, settings)
+        return self.budget.run(key, lambda: self._worded(session, settings),
+                               lambda result: self._remember(key, result))
+
+    def _worded(self, session: Session, settings: Settings) -> Analysis:
+        """_analyse, with a failure nobody worded (a numerical breakdown) turned into a
+        message, so every page that shows the analysis says so instead of failing."""
+        try:
+            return self._analyse(session, settings)
+        except InputError:
+            raise
+        except Exception as exc:  # noqa: BLE001 - never a 500 for a user's table or step
+            log.exception("analysis of session %s failed", session.session_id)
+            raise InputError(
+                f"the analysis of this design failed ({type(exc).__name__}: {exc})",
+                session.table.source,
+                "Undo the last change; if the table itself fails, please report this with "
+                "the file") from exc
+
+    def _remember(self, key: tuple[str, int, Settings], result: Analysis) -> None:
         with self._guard:
             self._cache[key] = result
-            while len(self._cache) > self._cache_size:
-                self._cache.popitem(last=False)
-        return result
 
     def _held(self, session: Session, steps: tuple[str, ...]) -> refit.Held | None:
         with self._guard:
@@ -187,15 +214,17 @@ class Workbench:
             result, held = refit.from_rows(table, settings)
         with self._guard:
             self._engines[(session.session_id, id(table), steps)] = held
-            while len(self._engines) > self._cache_size:
-                self._engines.popitem(last=False)
         return result
 
     def with_rows(self, session: Session) -> Analysis:
         """The current analysis as diagnosed with the rows (residuals of relations on the
         rows, Spearman): for the report, which lists them."""
         result = self.current(session)
-        return result if result.path == "rows" else analyse(session.table, result.settings)
+        if result.path == "rows":
+            return result
+        key = ("rows", session.session_id, id(session.table), result.settings)
+        return self.budget.run(key, lambda: analyse(session.table, result.settings),
+                               lambda _: None)
 
     def spearman(self, session: Session) -> tuple[dict[str, Any], str | None]:
         """The current diagnosis with its Spearman matrix, computed from the rows when the
@@ -204,8 +233,10 @@ class Workbench:
         corr = result.diagnosis["correlations"]
         if corr["spearman"] is not None or len(corr["columns"]) < 2:
             return result.diagnosis, None
-        matrix, note = refit.spearman_from_rows(session.table, result.settings,
-                                                corr["columns"])
+        matrix, note = self.budget.run(
+            ("spearman", session.session_id, id(session.table), result.settings),
+            lambda: refit.spearman_from_rows(session.table, result.settings, corr["columns"]),
+            lambda _: None)
         diag = {**result.diagnosis, "correlations": {**corr, "spearman": matrix}}
         key = (session.session_id, id(session.table), result.settings)
         with self._guard:
@@ -237,9 +268,15 @@ class Workbench:
         change = check_change(change)
         session = self.session(session_id)
         base = session.version if base_version is None else base_version
+        checked = None
         if base == session.version:
             self.current(session.with_change(change))
-        return self.store.change(session_id, base, change.kind, change.payload, change_id)
+            # The analysis built the steps as the store's check would (EditEngine.apply
+            # raises exactly when build_design does), so the store need not replay them
+            # again on this version. A basis choice is not checked by the analysis.
+            checked = base if change.kind == "step" else None
+        return self.store.change(session_id, base, change.kind, change.payload, change_id,
+                                 checked)
 
     def pin(self, session_id: str, label: str = "") -> PinnedFit:
         """Keep the current fit for comparison."""

@@ -1,96 +1,38 @@
-"""Live-server fixtures: `rankscope serve` run for real (python -m app.cli) on a free loopback
-port with its own data folder, read until it listens, and always stopped.
+"""Live-server fixtures: `rankscope serve` run for real (python -m app.cli, see app.web.spawn)
+on a free loopback port with its own data folder, read until it listens, and always stopped.
 
 Helpers only; the checks are in the test modules.
 """
 
 from __future__ import annotations
 
-import os
-import signal
-import socket
-import subprocess
-import sys
 import threading
 import time
-from collections.abc import Iterator
+from collections.abc import Callable, Iterator
 from pathlib import Path
+from typing import Any
 
 import httpx
 import pytest
 
-ROOT = Path(__file__).resolve().parents[2]
-START_SECONDS = 30.0
+from app.web.spawn import LiveServer, free_port
 
+__all__ = ["HELD", "LiveServer", "Writer", "free_port", "serve", "upload"]
 
-def free_port() -> int:
-    with socket.socket(socket.AF_INET, socket.SOCK_STREAM) as s:
-        s.bind(("127.0.0.1", 0))
-        return int(s.getsockname()[1])
-
-
-class LiveServer:
-    """One `rankscope serve` process; its printed lines are collected as they come."""
-
-    def __init__(self, data_dir: Path, *args: str) -> None:
-        self.port = free_port()
-        self.url = f"http://127.0.0.1:{self.port}"
-        cmd = [sys.executable, "-m", "app.cli", "serve", "--no-browser", "--host", "127.0.0.1",
-               "--port", str(self.port), "--data-dir", str(data_dir), *args]
-        self.proc = subprocess.Popen(cmd, cwd=ROOT, stdout=subprocess.PIPE,
-                                     stderr=subprocess.STDOUT, text=True)
-        self.lines: list[str] = []
-        threading.Thread(target=self._read, daemon=True).start()
-        self._wait_until_up()
-
-    def _read(self) -> None:
-        assert self.proc.stdout is not None
-        for line in self.proc.stdout:
-            self.lines.append(line.rstrip("\n"))
-
-    def _wait_until_up(self) -> None:
-        deadline = time.monotonic() + START_SECONDS
-        while True:
-            try:
-                httpx.get(self.url + "/static/rankscope.css", timeout=2)
-                return  # any answer (200, or 403 when sharing) means it listens
-            except httpx.TransportError:
-                if self.proc.poll() is not None or time.monotonic() > deadline:
-                    self.stop()
-                    raise RuntimeError("rankscope serve did not start:\n" +
-                                       "\n".join(self.lines)) from None
-                time.sleep(0.1)
-
-    def printed(self, label: str) -> str:
-        """The address printed after `label` (e.g. "edit link:")."""
-        for line in self.lines:
-            if label in line:
-                return line.split(label, 1)[1].split()[0]
-        raise KeyError(f"{label!r} not printed; got:\n" + "\n".join(self.lines))
-
-    def kill(self) -> None:
-        """SIGKILL: no shutdown code runs, as in a crash or a power cut of the process."""
-        os.kill(self.proc.pid, signal.SIGKILL)
-        self.proc.wait(timeout=30)
-
-    def stop(self) -> None:
-        if self.proc.poll() is None:
-            self.proc.terminate()
-            try:
-                self.proc.wait(timeout=15)
-            except subprocess.TimeoutExpired:
-                self.proc.kill()
-                self.proc.wait(timeout=15)
+#: The launcher of a held server (LiveServer(held=True)): imported, waiting to serve.
+HELD = ("-m", "tests.live.held")
 
 
 @pytest.fixture()
 def serve(tmp_path: Path) -> Iterator:
-    """serve(*args, data_dir=None) starts a server (default data folder: tmp_path/data);
-    every server started is stopped at the end of the test."""
+    """serve(*args, data_dir=None, held=False) starts a server (default data folder:
+    tmp_path/data); held: imported and waiting for server.release() to serve. Every server
+    started is stopped at the end of the test."""
     started: list[LiveServer] = []
 
-    def start(*args: str, data_dir: Path | None = None) -> LiveServer:
-        server = LiveServer(data_dir or tmp_path / "data", *args)
+    def start(*args: str, data_dir: Path | None = None, held: bool = False) -> LiveServer:
+        server = LiveServer(data_dir or tmp_path / "data", *args, held=held,
+                            launcher=HELD if held else ("-m", "app.cli"))
         started.append(server)
         return server
 
@@ -103,3 +45,51 @@ def upload(client: httpx.Client, name: str, data: bytes) -> str:
     r = client.post("/api/upload", files={"file": (name, data, "text/csv")})
     assert r.status_code == 201, r.text  # RFC 9110 §15.3.2
     return r.json()["session"]
+
+
+class Writer:
+    """A client thread sending changes to one session, each on the version the one before
+    was saved as, until the server is gone or `seconds` pass. body(i) is the i-th change
+    (kind and payload); its id is "<prefix>-<i>". Keeps every acknowledged (version, id) in
+    order: exactly what a client was promised."""
+
+    def __init__(self, url: str, sid: str, version: int, body: Callable[[int], dict[str, Any]],
+                 prefix: str = "w", seconds: float = 60.0) -> None:
+        self.url, self.sid, self.version, self.body = url, sid, version, body
+        self.prefix, self.seconds = prefix, seconds
+        self.acked: list[tuple[int, str]] = []
+        self.failures: list[str] = []  # answers other than 200 (the writer stops at one)
+        self._thread = threading.Thread(target=self._run, daemon=True)
+        self._thread.start()
+
+    def _run(self) -> None:
+        deadline = time.monotonic() + self.seconds
+        version, i = self.version, 0
+        with httpx.Client(base_url=self.url, timeout=10) as client:
+            while time.monotonic() < deadline:
+                cid = f"{self.prefix}-{i}"
+                try:
+                    r = client.post(f"/api/s/{self.sid}/changes?html=0", json={
+                        **self.body(i), "base_version": version, "change_id": cid})
+                except httpx.TransportError:
+                    return  # the server is gone: what was in flight was not acknowledged
+                if r.status_code != 200:
+                    self.failures.append(f"{cid}: {r.status_code} {r.text}")
+                    return
+                version = r.json()["saved_as"]
+                self.acked.append((version, cid))
+                i += 1
+
+    def wait_for(self, acks: int, timeout: float = 60.0) -> bool:
+        """True once `acks` changes are acknowledged; False if the writer stopped or the
+        time ran out first."""
+        deadline = time.monotonic() + timeout
+        while len(self.acked) < acks:
+            if not self._thread.is_alive() or time.monotonic() > deadline:
+                return len(self.acked) >= acks
+            time.sleep(0.002)
+        return True
+
+    def join(self, timeout: float = 30.0) -> None:
+        self._thread.join(timeout)
+        assert not self._thread.is_alive(), "the writer did not stop"

@@ -8,14 +8,12 @@ each as) before it died, RFC 9110 for status codes, and numpy's rank of the desi
 from __future__ import annotations
 
 import signal
-import threading
-import time
 
 import httpx
 import numpy as np
 import pytest
 
-from tests.live.conftest import upload
+from tests.live.conftest import Writer, upload
 from tests.web.conftest import to_csv, units_table
 
 ACKS_BEFORE_KILL = 25
@@ -36,36 +34,17 @@ def test_session_survives_sigkill_to_its_last_acknowledged_change(serve, tmp_pat
                        ).status_code == 200
     assert client.post(f"/api/s/{sid}/pins?html=0", json={"label": "before"}).status_code == 201
 
-    acked: list[tuple[int, str]] = []
-    enough = threading.Event()
-
-    def writer() -> None:
-        # Drop and restore temp_f for ever, each change on the version the last one got.
-        version, dropped, i = 1, False, 0
-        deadline = time.monotonic() + WRITER_SECONDS
-        while time.monotonic() < deadline:
-            cid = f"w-{i}"
-            body = {"kind": "step", "payload": {"step": "restore" if dropped else "drop",
-                                                "column": "temp_f"},
-                    "base_version": version, "change_id": cid}
-            try:
-                r = client.post(f"/api/s/{sid}/changes?html=0", json=body)
-            except httpx.TransportError:
-                return  # the server is gone: whatever was in flight was not acknowledged
-            assert r.status_code == 200, r.text
-            version, dropped = r.json()["saved_as"], not dropped
-            acked.append((version, cid))
-            if len(acked) >= ACKS_BEFORE_KILL:
-                enough.set()
-            i += 1
-
-    thread = threading.Thread(target=writer, daemon=True)
-    thread.start()
-    assert enough.wait(WRITER_SECONDS), "the server acknowledged too few changes"
+    # Drop and restore temp_f for ever, each change on the version the last one got.
+    writer = Writer(first.url, sid, 1, lambda i: {
+        "kind": "step", "payload": {"step": "restore" if i % 2 else "drop", "column": "temp_f"}},
+        seconds=WRITER_SECONDS)
+    assert writer.wait_for(ACKS_BEFORE_KILL, WRITER_SECONDS), \
+        f"the server acknowledged too few changes: {writer.failures}"
     first.kill()  # while the writer is sending the next change
-    thread.join(timeout=30)
-    assert first.proc.returncode == -signal.SIGKILL
+    writer.join()
+    assert first.proc.returncode == -signal.SIGKILL and not writer.failures
     client.close()
+    acked = writer.acked
 
     second = serve()  # the same data folder
     with httpx.Client(base_url=second.url, timeout=10) as again:
