@@ -16,7 +16,8 @@ from app.store.history import Folded
 from app.store.records import Created
 from app.tables.errors import InputError
 from app.tables.table import Table
-from app.web.reduced import FACTOR_STEPS, NO_ROWS_NOTE, Reduced, reduced_analysis, refused
+from app.web.reduced import NO_ROWS_NOTE, Reduced, reduced_analysis
+from app.web.reduced_steps import FACTOR_COMBINE, FACTOR_STEPS, refused
 from app.web.state import Session, SessionStore
 from app.web.workbench import Analysis, Settings, Workbench
 
@@ -48,6 +49,9 @@ def reduced_check(table: Table, before: Folded, change: StoredChange) -> None:
         replay_check(table, before, change)
     elif change.kind == "step" and change.payload.get("step") not in FACTOR_STEPS:
         raise refused(f"recipe step {change.payload.get('step')!r}")
+    elif change.kind == "step" and change.payload.get("step") == "combine" and (
+            change.payload.get("method") not in FACTOR_COMBINE):
+        raise refused(f"combine by {change.payload.get('method')!r}")
 
 
 def _schema(reduced: Reduced) -> Table:

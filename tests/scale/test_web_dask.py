@@ -22,7 +22,7 @@ from fastapi.testclient import TestClient  # noqa: E402
 from app.design.recipe import Recipe, build_design
 from app.tables.read import read_table
 from app.web.dask_app import create_dask_app
-from app.web.reduced import ROWS_NEEDED
+from app.web.reduced_steps import ROWS_NEEDED
 from tests.scale.reduced_check import assert_matches_in_memory
 
 RECIPE = [{"step": "response", "column": "load"}]
@@ -94,7 +94,7 @@ def test_keep_ridge_and_drop_work_other_changes_refused(served) -> None:
     d = client.get(f"/api/s/{sid}/diagnosis").json()
     assert "temp_f" not in d["columns"] and d["full_rank"]
     before = client.get(f"/api/s/{sid}/history").json()
-    for payload in ({"step": "center", "column": "hours"},
+    for payload in ({"step": "log", "column": "hours"},
                     {"step": "response", "column": "mass"}):
         r = client.post(url, json={"kind": "step", "payload": payload})
         assert r.status_code == 400 and ROWS_NEEDED in r.json()["error"]
