@@ -98,12 +98,14 @@ def keep_rows(
     return kept, dropped_by
 
 
-def _indicators(col: Col, notes: list[str]) -> list[tuple[str, np.ndarray]]:
-    levels = levels_of(col)
+def coded_levels(name: str, levels: list[str], reference: str | None,
+                 notes: list[str]) -> list[str]:
+    """The levels that get an indicator column: `levels` (present on the rows used, in level
+    order) without the reference (default the first; ALL_LEVELS keeps every one). Adds the
+    coding note; raises InputError for a reference that is not present."""
     if not levels:
-        notes.append(f"{quoted(col.name)} has no values on the rows used; it adds no column.")
+        notes.append(f"{quoted(name)} has no values on the rows used; it adds no column.")
         return []
-    reference = col.reference
     if reference is None:
         reference = levels[0]
         how = f"against its first level {quoted(reference)}"
@@ -112,12 +114,17 @@ def _indicators(col: Col, notes: list[str]) -> list[tuple[str, np.ndarray]]:
     elif reference in levels:
         how = f"against level {quoted(reference)}"
     else:
-        raise InputError(f"{quoted(col.name)} has no level {quoted(reference)} on the rows used")
+        raise InputError(f"{quoted(name)} has no level {quoted(reference)} on the rows used")
     kept = [lv for lv in levels if lv != reference]
     if not kept:
-        notes.append(f"{quoted(col.name)} has a single level on the rows used; it adds no column.")
+        notes.append(f"{quoted(name)} has a single level on the rows used; it adds no column.")
         return []
-    notes.append(f"Coded {quoted(col.name)} with {len(kept)} indicator column(s) {how}.")
+    notes.append(f"Coded {quoted(name)} with {len(kept)} indicator column(s) {how}.")
+    return kept
+
+
+def _indicators(col: Col, notes: list[str]) -> list[tuple[str, np.ndarray]]:
+    kept = coded_levels(col.name, levels_of(col), col.reference, notes)
     return [(f"{col.name}[{lv}]", (col.values == lv).astype(float)) for lv in kept]
 
 

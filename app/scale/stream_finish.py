@@ -12,6 +12,7 @@ import numpy as np
 from app.core.factor import Factorization
 from app.core.reduce import upper_sign_fixed
 from app.core.workspace import CONSTANT, Workspace
+from app.design.assemble import coded_levels
 from app.design.bench import PREDICTOR, RESPONSE
 from app.design.design import INTERCEPT
 from app.design.names import level_order, number_text, quoted, suggestion
@@ -220,23 +221,7 @@ def _checks(p: Partial, used: list[Entry]) -> None:
 def _indicators(e: Entry, levels: dict[str, int], notes: list[str]) -> list[tuple[str, Key]]:
     """As the recipe's assembly: levels on the rows used, sorted; the reference left out."""
     present = level_order(lv for lv, n in levels.items() if n > 0)
-    if not present:
-        notes.append(f"{quoted(e.name)} has no values on the rows used; it adds no column.")
-        return []
-    ref = e.reference
-    if ref is None:
-        ref, how = present[0], f"against its first level {quoted(present[0])}"
-    elif ref == ALL_LEVELS:
-        how = "keeping every level"
-    elif ref in present:
-        how = f"against level {quoted(ref)}"
-    else:
-        raise InputError(f"{quoted(e.name)} has no level {quoted(ref)} on the rows used")
-    kept = [lv for lv in present if lv != ref]
-    if not kept:
-        notes.append(f"{quoted(e.name)} has a single level on the rows used; it adds no column.")
-        return []
-    notes.append(f"Coded {quoted(e.name)} with {len(kept)} indicator column(s) {how}.")
+    kept = coded_levels(e.name, present, e.reference, notes)
     return [(f"{e.name}[{lv}]", ("l", e.key, lv)) for lv in kept]
 
 
