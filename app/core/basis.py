@@ -1,6 +1,7 @@
-"""Choice of basis columns: QR with column deferral in a caller-given priority order.
+"""The basis factor: one QR of the chosen basis columns followed by the dependent ones.
 
-Works on the small (p, p) factor only; no names beyond indices, no I/O.
+Works on the small (p, p) factor only; no names beyond indices, no I/O. Which columns
+form the basis is decided in app.core.rank.
 """
 
 from __future__ import annotations
@@ -30,56 +31,23 @@ class Basis:
     qty: np.ndarray
 
 
-def _diagonal(A: np.ndarray) -> np.ndarray:
-    """|r_kk| of the unpivoted Householder QR of A (LAPACK geqrf): r_kk is the length of
-    column k left after projecting it off columns 0..k-1."""
-    R = np.linalg.qr(A, mode="r")
-    d = np.zeros(A.shape[1])
-    m = min(R.shape)
-    d[:m] = np.abs(np.diag(R)[:m])
-    return d
-
-
-def choose_basis(
-    A: np.ndarray, order: list[int], tol: float, rhs: np.ndarray | None = None
+def basis_factor(
+    A: np.ndarray, basis: list[int], dependent: list[int], rhs: np.ndarray | None = None
 ) -> Basis:
-    """Householder QR of A taking columns in `order`, deferring any whose remaining
-    length is at most `tol`.
+    """One Householder QR of A[:, basis + dependent] (and the right-hand side): R11, R12,
+    what each dependent column keeps beyond the basis, and the rhs' coordinates.
 
-    This is QR with column deferral (a restricted form of column pivoting, Golub &
-    Van Loan 4th ed. §5.4.2): the order is the caller's priority, so earlier columns
-    stay in the basis and later ones are expressed through them. A deferred column's
-    remaining length only shrinks as more basis columns are accepted, so every
-    deferred column ends within tol of the span of the basis.
-    A: (m, p). order: a permutation of range(p). tol: absolute length threshold.
-
-    The remaining length of column k after the accepted ones is the diagonal entry r_kk of
-    an unpivoted QR, so the scan runs in LAPACK: one QR of the candidates, and one more
-    after each deferral (the columns after a deferred one must be measured without it).
+    A: (m, p) factor of the unit-length columns. Put constant columns first in `basis`:
+    the constant's reflection is then the identity on a factor whose constant column is
+    e_0, so every later column is reduced in centred form and offsets cost no digits.
     """
     A = np.asarray(A, dtype=np.float64)
     m = A.shape[0]
-    basis: list[int] = []
-    dependent: list[int] = []
-    pending = list(order)
-    while pending:
-        room = m - len(basis)
-        if room <= 0:
-            dependent.extend(pending)
-            break
-        d = _diagonal(A[:, basis + pending])[len(basis):]
-        small = [i for i in range(min(len(pending), room)) if d[i] <= tol]
-        cut = small[0] if small else min(len(pending), room)
-        basis.extend(pending[:cut])
-        if small:
-            dependent.append(pending[cut])
-            pending = pending[cut + 1 :]
-        else:
-            dependent.extend(pending[cut:])
-            pending = []
     k = len(basis)
     cols = basis + dependent
     M = A[:, cols] if rhs is None else np.column_stack([A[:, cols], rhs])
+    if M.shape[1] == 0:
+        return Basis([], [], np.zeros((0, 0)), np.zeros((0, 0)), np.zeros(0), np.zeros(m))
     R = np.linalg.qr(M, mode="r")
     full = np.zeros((max(m, M.shape[1]), M.shape[1]))
     full[: R.shape[0]] = R
@@ -95,4 +63,4 @@ def choose_basis(
         # squares), so it is stored in one entry.
         if k < m:
             qty[k] = float(np.linalg.norm(full[k:, -1]))
-    return Basis(basis, dependent, R11, R12, remainder, qty)
+    return Basis(list(basis), list(dependent), R11, R12, remainder, qty)

@@ -8,6 +8,11 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from app.core.factor import column_norms
+from app.core.rank import default_tolerance
+
+__all__ = ["default_tolerance"]
+
 EPS = float(np.finfo(np.float64).eps)
 
 #: Condition index above which a near-dependency is flagged. Common practice
@@ -17,15 +22,6 @@ INDEX_THRESHOLD = 30.0
 #: Variance-decomposition proportion above which a column counts as involved (common
 #: practice, same source).
 PROPORTION_THRESHOLD = 0.5
-
-
-def default_tolerance(sigma_max: float, n: int, p: int) -> float:
-    """σ_max·max(n, p)·eps: the usual numerical-rank tolerance.
-
-    Golub & Van Loan, Matrix Computations, 4th ed., §5.4.1; the same rule as
-    numpy.linalg.matrix_rank and Press et al., Numerical Recipes, 3rd ed., §2.6.
-    """
-    return float(sigma_max) * max(n, p) * EPS
 
 
 def singular_values(R: np.ndarray) -> np.ndarray:
@@ -89,7 +85,7 @@ def index_table(
 
 
 def unit_columns(A: np.ndarray, keep: list[int]) -> np.ndarray:
-    """A[:, keep] with each column scaled to unit length."""
+    """A[:, keep] with each column scaled to unit length (lengths taken without underflow)."""
     B = A[:, keep]
-    nrm = np.linalg.norm(B, axis=0)
+    nrm = column_norms(B)
     return B / np.where(nrm > 0, nrm, 1.0)

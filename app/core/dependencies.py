@@ -13,6 +13,8 @@ from scipy.linalg import solve_triangular
 from app.core.basis import Basis
 from app.core.numbers import short_number
 
+EPS = float(np.finfo(np.float64).eps)
+
 #: A basis column stays in a relation when its coefficient (in unit-length units) is
 #: above this fraction of the largest one. Exact zeros come back as rounding noise of
 #: about cond·eps; sqrt(eps) ≈ 1.5e-8 separates the two for cond below ~1e7.
@@ -39,11 +41,14 @@ class Relation:
         }
 
 
-def equation_text(column: str, combination: dict[str, float]) -> str:
-    """'temp_f = 32·(intercept) + 1.8·temp_c' style text; 1 and −1 are left implicit."""
+def equation_text(column: str, combination: dict[str, float],
+                  shown: dict[str, str] | None = None) -> str:
+    """'temp_f = 32·(intercept) + 1.8·temp_c' style text; 1 and −1 are left implicit.
+
+    shown: the coefficients as text (signed); default their short form."""
     terms: list[str] = []
     for name, c in combination.items():
-        s = short_number(abs(c))
+        s = shown[name].lstrip("−-") if shown and name in shown else short_number(abs(c))
         body = name if s == "1" else f"{s}·{name}"
         neg = c < 0
         if not terms:
@@ -53,15 +58,28 @@ def equation_text(column: str, combination: dict[str, float]) -> str:
     return f"{column} = " + (" ".join(terms) if terms else "0")
 
 
+#: Levels tried, largest first, when pruning a relation to its support: a basis column is
+#: left out when its coefficient (unit-length units) is below the level times the largest.
+SUPPORT_LEVELS = (SUPPORT_REL, 1e-11, 1e-14, 0.0)
+
+
 def relations(
-    A: np.ndarray, basis: Basis, columns: list[str], scales: np.ndarray
+    A: np.ndarray,
+    basis: Basis,
+    columns: list[str],
+    scales: np.ndarray,
+    tol: float,
+    constants: list[int] = (),  # type: ignore[assignment]
 ) -> list[Relation]:
-    """One relation per dependent column, on as few basis columns as the factor allows.
+    """One relation per dependent column, each on its minimal support.
 
     A: (m, p) factor of the unit-length columns (AᵀA = XeᵀXe). scales: (p,) column lengths.
-    In unit-length units the relation is Xe_d ≈ Xe_B·c with c = R11⁻¹·R12[:, d]; on the
-    raw scale x_d = Σ c_b·(s_d/s_b)·x_b. Coefficients at rounding level are dropped and
-    the relation is refitted on its support by least squares on A's columns.
+    tol: the rank tolerance (unit-length units). In unit-length units the relation is
+    Xe_d ≈ Xe_B·c with c = R11⁻¹·R12[:, d]; on the raw scale x_d = Σ c_b·(s_d/s_b)·x_b.
+    Since the basis columns are independent, c is unique and its support is minimal once
+    the coefficients that are rounding noise are removed: terms below a level are dropped
+    and the relation refitted on the rest, keeping the first level whose residual stays
+    within the rank tolerance (or twice the full residual).
     """
     if not basis.dependent:
         return []
@@ -70,47 +88,83 @@ def relations(
     for i, d in enumerate(basis.dependent):
         c = C[:, i]
         cmax = float(np.max(np.abs(c))) if c.size else 0.0
-        support = [basis.basis[k] for k in range(len(c)) if abs(c[k]) > SUPPORT_REL * cmax]
-        support.sort()
-        coef, residual = _refit(A, support, d)
         full_res = float(basis.remainder[i])
-        if residual > max(10 * full_res, 1e-14):
-            # Dropping the small terms changed the relation: keep every basis column.
-            support = sorted(basis.basis)
-            coef, residual = _refit(A, support, d)
+        allowed = max(2.0 * full_res, tol, 8.0 * EPS)
+        for level in SUPPORT_LEVELS:
+            support = [basis.basis[k] for k in range(len(c)) if abs(c[k]) > level * cmax]
+            coef, residual = _refit(A, support, d, constants)
+            if residual <= allowed:
+                break
         raw = {columns[b]: float(coef[k] * scales[d] / scales[b]) for k, b in enumerate(support)}
         raw = {k: v for k, v in raw.items() if v != 0.0}
-        shown = {k: short_number(v) for k, v in raw.items()}
-        out.append(
-            Relation(
-                column=columns[d],
-                combination=raw,
-                shown=shown,
-                equation=equation_text(columns[d], raw),
-                residual=residual,
-            )
-        )
+        out.append(_relation(columns[d], raw, max(residual, tol), scales, columns, residual))
     return out
 
 
-def _refit(A: np.ndarray, support: list[int], d: int) -> tuple[np.ndarray, float]:
-    """Least-squares coefficients of A[:, d] on A[:, support] and the relative residual."""
+def _relation(column: str, raw: dict[str, float], residual: float, scales: np.ndarray,
+              columns: list[str], exact_residual: float) -> Relation:
+    """A Relation whose shown coefficients are the shortest that keep its residual.
+
+    residual: what the relation may leave (relative to s_d), at least the rank tolerance,
+    since a relation is exact up to that. Changing c_b by δ moves the residual by at most
+    |δ|·s_b, so the terms share that much plus the rounding of their terms
+    (4·eps·(s_d + Σ|c_b|·s_b)).
+    """
+    idx = {c: j for j, c in enumerate(columns)}
+    s_d = float(scales[idx[column]])
+    size = s_d + sum(abs(v) * float(scales[idx[b]]) for b, v in raw.items())
+    budget = max(residual * s_d, 4.0 * EPS * size) / max(len(raw), 1)
+    shown = {}
+    for b, v in raw.items():
+        rel = budget / max(abs(v) * float(scales[idx[b]]), 1e-300)
+        shown[b] = short_number(v, rel)
+    return Relation(
+        column=column, combination=raw, shown=shown,
+        equation=equation_text(column, raw, shown), residual=exact_residual,
+    )
+
+
+def _refit(A: np.ndarray, support: list[int], d: int, constants=()) -> tuple[np.ndarray, float]:
+    """Least-squares coefficients of A[:, d] on A[:, support] and the relative residual.
+
+    Householder QR with the constant columns first (see basis.basis_factor): the
+    intercept's coefficient then comes out as mean(x_d) − Σ c_b·mean(x_b), free of the
+    cancellation an offset would cause in an orthogonal solve on the raw columns.
+    """
     if not support:
         return np.zeros(0), float(np.linalg.norm(A[:, d]))
-    B = A[:, support]
-    coef, *_ = np.linalg.lstsq(B, A[:, d], rcond=None)
-    res = float(np.linalg.norm(A[:, d] - B @ coef) / max(np.linalg.norm(A[:, d]), 1e-300))
+    first = [k for k, b in enumerate(support) if b in constants]
+    perm = first + [k for k in range(len(support)) if k not in first]
+    B = A[:, [support[k] for k in perm]]
+    Q, R = np.linalg.qr(B)
+    qb = Q.T @ A[:, d]
+    diag = np.abs(np.diag(R))
+    if np.any(diag <= 0):
+        coef_p, *_ = np.linalg.lstsq(B, A[:, d], rcond=None)
+    else:
+        coef_p = solve_triangular(R, qb)
+    coef = np.empty(len(support))
+    coef[perm] = coef_p
+    res = float(np.linalg.norm(A[:, d] - B @ coef_p) / max(np.linalg.norm(A[:, d]), 1e-300))
     return coef, res
 
 
 def data_residual(X: np.ndarray, rel: Relation, columns: list[str]) -> float:
-    """||x_d − Σ c_b x_b|| / ||x_d|| computed on the rows themselves (float64)."""
+    """||x_d − Σ c_b x_b|| / (||x_d|| + Σ|c_b|·||x_b||), on the rows themselves.
+
+    Relative to the size of the terms, as a backward error (Higham 2nd ed., §1.10): a
+    relation that holds up to the rounding of the stored numbers measures a few eps
+    whatever the offsets; the sum is accumulated in extended precision.
+    """
     idx = {c: j for j, c in enumerate(columns)}
-    d = X[:, idx[rel.column]]
+    d = X[:, idx[rel.column]].astype(np.longdouble)
     fit = np.zeros_like(d)
+    size = float(np.linalg.norm(X[:, idx[rel.column]]))
     for name, c in rel.combination.items():
-        fit += c * X[:, idx[name]]
-    return float(np.linalg.norm(d - fit) / max(np.linalg.norm(d), 1e-300))
+        x = X[:, idx[name]]
+        fit += np.longdouble(c) * x.astype(np.longdouble)
+        size += abs(c) * float(np.linalg.norm(x))
+    return float(np.linalg.norm(np.asarray(d - fit, dtype=np.float64)) / max(size, 1e-300))
 
 
 def null_vectors(rels: list[Relation], columns: list[str]) -> list[dict[str, float]]:

@@ -11,13 +11,13 @@ import numpy as np
 from threadpoolctl import threadpool_limits
 
 from app.core import conditioning as cnd
-from app.core.basis import choose_basis
 from app.core.correlation import cluster_order, pearson_from_factor, spearman
 from app.core.dependencies import data_residual, null_vectors, relations
 from app.core.factor import Factorization, factorize
 from app.core.fit import fit_least_squares
 from app.core.inflation import gvif, vif_from_factor
 from app.core.numbers import finite_or_none
+from app.core.rank import EPS, decide, default_tolerance
 from app.core.ridge import DEFAULT_GRID, ridge_path
 
 TOLERANCE_RULE = "σ_max(Xe)·max(n, p)·eps (Golub & Van Loan §5.4.1; as numpy.linalg.matrix_rank)"
@@ -46,11 +46,13 @@ class Diagnosis:
     condition_indices: list[float | None]
     variance_proportions: list[dict[str, float]]
     index_exact: list[bool]
+    exact_dimensions: list[dict]
     near_dependencies: list[dict]
     thresholds: dict[str, float]
     vif: dict[str, float | None]
     tolerance: dict[str, float]
     vif_centered: bool
+    vif_absent: dict[str, str]
     gvif: dict[str, dict]
     correlations: dict
     fit: dict | None
@@ -109,6 +111,28 @@ def spearman_rows(n: int, total: int) -> np.ndarray | None:
     return np.linspace(0, total - 1, SPEARMAN_ROWS).astype(int)
 
 
+#: A relation counts as verified on the rows when its residual there (relative to the size
+#: of its terms) is within this factor of the rank tolerance: the rows and the factor then
+#: agree to the rounding of the stored numbers.
+VERIFY_FACTOR = 100.0
+
+
+def _constant_carrier(F: Factorization, basis: list[int], order: list[int]) -> int | None:
+    """The lowest-priority basis column through which the constant enters the span.
+
+    Solves Xe_B·a = u (u the unit constant) on the factor; the carriers are the columns
+    with a non-negligible a_j (above sqrt(eps) of the largest, in unit-length units).
+    """
+    A = F.T_eq[:, [1 + j for j in basis]]
+    a, *_ = np.linalg.lstsq(A, F.T_eq[:, 0], rcond=None)
+    big = float(np.max(np.abs(a))) if a.size else 0.0
+    carriers = {j for j, v in zip(basis, a, strict=True) if abs(v) > np.sqrt(EPS) * big}
+    for j in reversed(order):
+        if j in carriers:
+            return j
+    return None
+
+
 def priority_order(columns: list[str], keep: list[str] | None) -> list[int]:
     """Basis priority: the caller's keep list first, then the other columns in order."""
     keep = [c for c in (keep or []) if c in columns]
@@ -143,83 +167,98 @@ def diagnose_factor(
     notes = list(F.notes)
     R_eq = F.R_x
     sv_eq = F.svd_eq[1]
-    tol_used = float(tol) if tol is not None else cnd.default_tolerance(
+    tol_used = float(tol) if tol is not None else default_tolerance(
         sv_eq[0] if sv_eq.size else 0.0, F.n, p)
-    rank_svd = int(np.sum(sv_eq > tol_used))
-    basis = choose_basis(R_eq, priority_order(names, keep), tol_used, rhs=F.R_xy[:p, p])
-    rank_qr = len(basis.basis)
-    rank_note = None
-    if rank_qr != rank_svd:
-        rank_note = (
-            f"The SVD gives rank {rank_svd} and the QR basis choice gives {rank_qr} at the "
-            f"same tolerance {tol_used:.3g}: the smallest singular values lie close to the "
-            "tolerance, so the rank is not sharply defined; the relations below come from QR."
-        )
+    consts = F.constant_columns
+    decision = decide(R_eq, F.svd_eq, priority_order(names, keep), tol_used, consts,
+                      rhs=F.R_xy[:p, p])
+    basis = decision.basis
+    rank = decision.rank
     for j in F.zero_columns:
         notes.append(f"Column {names[j]} is all zeros.")
-    rels = relations(R_eq, basis, names, F.scales)
+    rels = relations(R_eq, basis, names, F.scales, tol_used, consts)
     rel_dicts = []
     for r in rels:
         d = r.to_dict()
         if F.X is not None:
             d["residual_rows"] = data_residual(F.X, r, names)
+            d["verified"] = bool(d["residual_rows"] <= VERIFY_FACTOR * max(tol_used, EPS))
         rel_dicts.append(d)
+    involved: set[str] = set()
+    for r in rels:
+        involved.add(r.column)
+        involved.update(r.combination)
 
     # Condition numbers of raw, unit-length, and centered-and-scaled X.
     sv_raw = F.svd_raw[1]
     cen = F.centered[:, :p]
-    cen_len = np.linalg.norm(cen, axis=0)
-    # A column whose centered length is at rounding level relative to its raw length is
-    # constant (the intercept, or a column that never varies).
-    nonconst = [j for j in range(p) if cen_len[j] > np.sqrt(p + 1) * tol_used * F.scales[j]
-                and cen_len[j] > 0]
+    nonconst = [j for j in range(p) if j not in consts and j not in F.zero_columns]
     Zc = cnd.unit_columns(cen, nonconst)
     sv_c = cnd.singular_values(Zc)
-    tol_c = cnd.default_tolerance(sv_c[0] if sv_c.size else 0.0, F.n, len(nonconst))
+    # The centred columns are deficient exactly when a relation ties non-constant columns.
+    cen_deficient = any(names[j] in involved for j in nonconst)
     cond = {
         # Raw scale: no tolerance of its own; infinite exactly when X is rank deficient.
-        "raw": finite_or_none(cnd.condition_number(sv_raw, 0.0 if rank_svd == p else np.inf)),
+        "raw": finite_or_none(cnd.condition_number(sv_raw, 0.0 if rank == p else np.inf)),
         "equilibrated": finite_or_none(cnd.condition_number(sv_eq, tol_used)),
-        "centered": finite_or_none(cnd.condition_number(sv_c, tol_c)) if sv_c.size else None,
+        "centered": (finite_or_none(cnd.condition_number(sv_c, np.inf if cen_deficient
+                                                          else 0.0)) if sv_c.size else None),
     }
 
-    table = cnd.index_table(R_eq, tol_used, index_threshold, proportion_threshold,
-                            svd=F.svd_eq)
-    props = [dict(zip(names, row, strict=True)) for row in table.proportions.tolist()]
+    # Index table of the basis design (an exact dimension would swamp every share), then
+    # one exact row per relation with the columns of its equation.
+    in_basis = sorted(basis.basis)
+    table = cnd.index_table(R_eq[:, in_basis], 0.0, index_threshold, proportion_threshold)
+    props = []
+    for row in table.proportions:
+        share = dict.fromkeys(names, 0.0)
+        share.update({names[j]: float(v) for j, v in zip(in_basis, row, strict=True)})
+        props.append(share)
+    indices: list[float | None] = [finite_or_none(x) for x in table.indices]
+    exact_rows = [False] * len(in_basis)
     near = [
         {
             "index": finite_or_none(table.indices[k]),
-            "columns": [names[j] for j in cols],
-            "proportions": {names[j]: float(table.proportions[k, j]) for j in cols},
-            "exact": table.exact[k],
+            "columns": [names[in_basis[j]] for j in cols],
+            "proportions": {names[in_basis[j]]: float(table.proportions[k, j]) for j in cols},
+            "exact": False,
         }
         for k, cols in table.flagged
     ]
+    exact_dims = []
+    for r in rels:
+        members = [c for c in names if c == r.column or c in r.combination]
+        props.append({c: (1.0 if c in members else 0.0) for c in names})
+        indices.append(None)
+        exact_rows.append(True)
+        exact_dims.append({"columns": members, "equation": r.equation})
+        near.append({"index": None, "columns": members,
+                     "proportions": dict.fromkeys(members, 1.0), "exact": True})
 
-    # VIF: centered when the model holds a constant, else uncentered (unit length).
+    # VIF: on the basis design, centred when the model holds a constant (explicitly or
+    # in the span), else uncentred; infinite exactly for the columns of a relation.
     vif_centered = F.constant_in_span
-    space = cen if vif_centered else R_eq
-    cand = nonconst if vif_centered else list(range(p))
-    label = [names[j] for j in cand]
-    Zall = Zc if vif_centered else cnd.unit_columns(space, cand)
-    # Exact dependencies in the space the VIF lives in: those of X, plus any that centering
-    # creates (every level of a categorical without an explicit intercept sums to the
-    # constant). Their columns have infinite VIF; the rest come from the basis columns.
-    rank_of = {j: i for i, j in enumerate(priority_order(names, keep))}
-    inner_order = sorted(range(len(cand)), key=lambda i: rank_of[cand[i]])
-    inner_tol = (tol_c if vif_centered else tol_used) if cand else 0.0
-    inner = choose_basis(Zall, inner_order, inner_tol)
-    involved: set[str] = set()
-    for r in relations(Zall, inner, label, np.ones(len(cand))):
-        involved.add(r.column)
-        involved.update(r.combination)
-    const_cols = [names[j] for j in range(p) if j not in nonconst]
-    span_cols = [cand[i] for i in sorted(inner.basis)]
-    Zs = cnd.unit_columns(space, span_cols)
-    vals = vif_from_factor(Zs) if span_cols else np.zeros(0)
-    by_col = {names[j]: float(vals[i]) for i, j in enumerate(span_cols)}
+    absent: dict[str, str] = {}
+    left_out: set[int] = set()
+    explicit = [j for j in basis.basis if j in consts]
+    if explicit:
+        left_out.add(explicit[0])
+        absent[names[explicit[0]]] = "the constant has no VIF"
+    elif vif_centered and basis.basis:
+        carrier = _constant_carrier(F, basis.basis, priority_order(names, keep))
+        if carrier is not None:
+            left_out.add(carrier)
+            if names[carrier] not in involved:
+                absent[names[carrier]] = (
+                    "carries the constant (in the span without an intercept column): the "
+                    "VIFs are those of the design with this column replaced by the constant")
+    space_cols = sorted(j for j in basis.basis if j not in left_out and j not in consts)
+    Zs = cnd.unit_columns(cen if vif_centered else R_eq, space_cols)
+    vals = vif_from_factor(Zs) if space_cols else np.zeros(0)
+    by_col = {names[j]: float(vals[i]) for i, j in enumerate(space_cols)}
     vif: dict[str, float | None] = {
-        c: None if (c in involved or c not in by_col) else by_col[c] for c in label
+        c: None if c in involved else by_col[c]
+        for c in names if (c in involved or c in by_col) and names.index(c) not in explicit[:1]
     }
     tolerance = {c: (0.0 if v is None else 1.0 / v) for c, v in vif.items()}
 
@@ -228,11 +267,11 @@ def diagnose_factor(
         members = [c for c in gcols if c in names]
         if not members:
             continue
-        idx = [span_cols.index(names.index(c)) for c in members
-               if names.index(c) in span_cols]
-        bad = any(c in involved for c in members) or len(idx) != len(members)
+        idx = [space_cols.index(names.index(c)) for c in members
+               if names.index(c) in space_cols]
+        bad = any(c in involved for c in members) or not idx
         val = None if bad or not vif_centered else gvif(Zs, idx)
-        dfg = len(members)
+        dfg = len([c for c in members if names.index(c) not in left_out]) or len(members)
         gv[gname] = {
             "columns": members,
             "df": dfg,
@@ -257,7 +296,7 @@ def diagnose_factor(
 
     fit = None
     if F.has_response:
-        fit = fit_least_squares(F, basis, rels, rank_qr).to_dict()
+        fit = fit_least_squares(F, basis, rels, rank).to_dict()
 
     ridge = None
     if F.has_response and (ridge_penalty is not None or ridge_grid is not None):
@@ -270,7 +309,7 @@ def diagnose_factor(
             i = int(np.argmin(np.abs(np.asarray(path.penalties) - ridge_penalty)))
             ridge["chosen"] = path.at(i)
 
-    for c in const_cols:
+    for c in [names[j] for j in consts]:
         if c != "(intercept)":
             notes.append(f"Column {c} is constant: it carries no variation of its own.")
 
@@ -278,14 +317,14 @@ def diagnose_factor(
         n_rows=F.n,
         columns=list(names),
         response=response,
-        rank=rank_svd,
-        rank_svd=rank_svd,
-        rank_qr=rank_qr,
-        full_rank=rank_svd == p and rank_qr == p,
+        rank=rank,
+        rank_svd=rank,
+        rank_qr=len(basis.basis),
+        full_rank=rank == p,
         rank_tolerance=tol_used,
         tolerance_rule=TOLERANCE_RULE if tol is None else "given by the caller",
-        rank_note=rank_note,
-        basis=[names[j] for j in basis.basis],
+        rank_note=None,
+        basis=[names[j] for j in priority_order(names, keep) if j in set(basis.basis)],
         condition_number=cond,
         singular_values={
             "raw": sv_raw.tolist(),
@@ -295,14 +334,16 @@ def diagnose_factor(
         centered_columns=[names[j] for j in nonconst],
         dependencies=rel_dicts,
         null_space=null_vectors(rels, names),
-        condition_indices=[finite_or_none(x) for x in table.indices],
+        condition_indices=indices,
         variance_proportions=props,
-        index_exact=table.exact,
+        index_exact=exact_rows,
+        exact_dimensions=exact_dims,
         near_dependencies=near,
         thresholds={"condition_index": index_threshold, "proportion": proportion_threshold},
         vif=vif,
         tolerance=tolerance,
         vif_centered=vif_centered,
+        vif_absent=absent,
         gvif=gv,
         correlations=corr,
         fit=fit,

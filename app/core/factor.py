@@ -10,14 +10,15 @@ from functools import cached_property
 
 import numpy as np
 
-from app.core.reduce import block_rows, reduce_blocks
+from app.core.reduce import block_rows, reduce_blocks, shifts_of, unshift
 
 EPS = float(np.finfo(np.float64).eps)
 
 
-def _blocks(X: np.ndarray, y: np.ndarray, sw: np.ndarray | None):
-    """Yield row blocks of the weighted matrix [sqrt(w), sqrt(w)·X, sqrt(w)·y].
+def _blocks(X: np.ndarray, y: np.ndarray, sw: np.ndarray | None, shifts: np.ndarray):
+    """Yield row blocks of the shifted, weighted matrix √w·[1, X − s_X, y − s_y].
 
+    shifts: (p+2,) the shift of each column of M (0 for the constant; see reduce.shifts_of).
     Each block is written once into a fresh Fortran-order array, the layout LAPACK reduces
     in place; without weights (sw None) nothing is multiplied.
     """
@@ -26,16 +27,20 @@ def _blocks(X: np.ndarray, y: np.ndarray, sw: np.ndarray | None):
     for start in range(0, n, step):
         sl = slice(start, min(start + step, n))
         B = np.empty((sl.stop - sl.start, p + 2), order="F")
-        if sw is None:
-            B[:, 0] = 1.0
-            B[:, 1 : p + 1] = X[sl]
-            B[:, p + 1] = y[sl]
-        else:
-            w = sw[sl]
-            B[:, 0] = w
-            np.multiply(X[sl], w[:, None], out=B[:, 1 : p + 1])
-            np.multiply(y[sl], w, out=B[:, p + 1])
+        B[:, 0] = 1.0 if sw is None else sw[sl]
+        np.subtract(X[sl], shifts[1 : p + 1], out=B[:, 1 : p + 1])
+        np.subtract(y[sl], shifts[p + 1], out=B[:, p + 1])
+        if sw is not None:
+            B[:, 1:] *= sw[sl, None]
         yield B
+
+
+def column_norms(A: np.ndarray) -> np.ndarray:
+    """Euclidean length of each column, scaled by its largest entry first so that columns
+    near underflow (1e-200) or overflow (1e200) keep their length (as BLAS dnrm2 does)."""
+    big = np.max(np.abs(A), axis=0) if A.shape[0] else np.zeros(A.shape[1])
+    safe = np.where(big > 0, big, 1.0)
+    return np.linalg.norm(A / safe, axis=0) * big
 
 
 def _svd(R: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
@@ -76,7 +81,7 @@ class Factorization:
     @cached_property
     def norms(self) -> np.ndarray:
         """(p+2,) column lengths of M (weighted); zero columns get length 1 to stay finite."""
-        nrm = np.linalg.norm(self.T, axis=0)
+        nrm = column_norms(self.T)
         return np.where(nrm > 0, nrm, 1.0)
 
     @cached_property
@@ -87,7 +92,7 @@ class Factorization:
     @cached_property
     def zero_columns(self) -> list[int]:
         """Indices of X columns that are identically zero."""
-        nrm = np.linalg.norm(self.T[:, 1 : self.p + 1], axis=0)
+        nrm = column_norms(self.T[:, 1 : self.p + 1])
         return [j for j in range(self.p) if nrm[j] == 0.0]
 
     @cached_property
@@ -104,12 +109,28 @@ class Factorization:
         return self.T / s
 
     @cached_property
+    def constant_columns(self) -> list[int]:
+        """X columns whose centred part is zero (to 16·eps of their length): the intercept
+        and any other column that never varies."""
+        cen = column_norms(self.T[1:, 1 : self.p + 1])
+        return [j for j in range(self.p)
+                if cen[j] <= 16 * EPS * self.scales[j] and self.T[0, 1 + j] != 0]
+
+    @cached_property
     def R_xy(self) -> np.ndarray:
-        """(p+1, p+1) triangular factor of [Xe, y] (constant column removed)."""
-        R = np.linalg.qr(self.T_eq[:, 1:], mode="r")
+        """(p+1, p+1) factor of [Xe, y] (constant column of M removed): RᵀR = [Xe y]ᵀ[Xe y].
+
+        Reduced with the constant columns of X first and then put back in column order, so
+        the matrix is triangular only up to that permutation; the other columns keep their
+        centred part exactly (see basis.basis_factor). y stays last: R[p, p] is what y
+        keeps beyond every column of X.
+        """
+        first = self.constant_columns
+        perm = first + [j for j in range(self.p) if j not in first] + [self.p]
+        R = np.linalg.qr(self.T_eq[:, 1:][:, perm], mode="r")
         k = self.p + 1
         out = np.zeros((k, k))
-        out[: R.shape[0]] = R[:k]
+        out[: R.shape[0], perm] = R[:k]
         return out
 
     @cached_property
@@ -120,7 +141,7 @@ class Factorization:
 
     @property
     def R_x(self) -> np.ndarray:
-        """(p, p) triangular factor of Xe: same singular values and Gram matrix as Xe."""
+        """(p, p) factor of Xe: same singular values and Gram matrix as Xe."""
         return self.R_xy[: self.p, : self.p]
 
     @cached_property
@@ -179,6 +200,9 @@ def factorize(
 ) -> Factorization:
     """Reduce [1, X, y] (rows weighted by sqrt(w)) to its triangular factor in one pass.
 
+    Columns are shifted by their first block's mean before the reduction and the shift is
+    put back in row 0 afterwards (reduce.unshift), so offsets cost no centred digits.
+
     X: (n, p) float64, finite. y: (n,) or None. weights: (n,) non-negative or None.
     The constant column is always carried in front so that centered quantities
     (correlations, VIF, centered condition number, ridge) come from the same factor.
@@ -205,7 +229,9 @@ def factorize(
         n_pos, sum_w = int(np.count_nonzero(w)), float(w.sum())
     if not (np.all(np.isfinite(X)) and np.all(np.isfinite(yv))):
         raise ValueError("X and y must be finite")
-    T = reduce_blocks(_blocks(X, yv, sw), p + 2)
+    head = min(n, block_rows(p + 2))
+    shifts = shifts_of(np.column_stack([np.zeros(head), X[:head], yv[:head]]))
+    T = unshift(reduce_blocks(_blocks(X, yv, sw, shifts), p + 2), shifts)
     return Factorization(
         T=T,
         columns=list(columns),

@@ -8,11 +8,11 @@ from dataclasses import dataclass
 
 import numpy as np
 from scipy import stats
-from scipy.linalg import solve_triangular
+from scipy.linalg import qr, solve_triangular
 
-from app.core.basis import Basis
+from app.core.basis import Basis, basis_factor
 from app.core.dependencies import Relation
-from app.core.factor import EPS, Factorization
+from app.core.factor import EPS, Factorization, column_norms
 from app.core.numbers import finite_or_none, short_number
 
 #: Refinement runs when the rows are kept and either the problem is small (n·k below
@@ -105,14 +105,44 @@ def _refine(
     return np.asarray(bl, dtype=np.float64), rss, steps
 
 
-def min_norm_solution(F: Factorization, rank: int) -> np.ndarray:
-    """argmin ||β|| over the least-squares solutions, raw units, truncated at `rank`
-    singular values (Golub & Van Loan 4th ed. §5.5.1), from the SVD of the raw factor."""
+def min_norm_solution(F: Factorization, null: np.ndarray) -> np.ndarray:
+    """argmin ||β|| over the least-squares solutions, original units.
+
+    Every least-squares solution is a particular one plus a null vector, and the shortest
+    is the one orthogonal to the null space: β = (I − Q·Qᵀ)·β_0 with Q an orthonormal basis
+    of the null space (a complete orthogonal decomposition in the original units, Golub &
+    Van Loan 4th ed. §5.5.2; Björck 1996, §1.3.4). β_0 is the basic solution on the columns
+    that the raw null vectors weigh least (QR with column pivoting on Nᵀ picks the others
+    as dependent): those carry the solution with small coefficients, so the projection
+    subtracts no large numbers, even with raw scales of 1e-8 beside 1e8.
+    null: (p, d) null vectors of X in original units (null_matrix).
+    """
     p = F.p
-    U, d, Vt = F.svd_raw
-    h = U.T @ F.R_xy_raw[:p, p]
-    r = min(rank, int(np.count_nonzero(d)))
-    return Vt[:r].T @ (h[:r] / d[:r])
+    if null.shape[1] == 0:
+        return np.zeros(p)
+    Wn = null / column_norms(null)
+    _, _, piv = qr(Wn.T, mode="economic", pivoting=True)
+    dependent = sorted(int(j) for j in piv[: null.shape[1]])
+    first = [j for j in F.constant_columns if j not in dependent]
+    basis = first + [j for j in range(p) if j not in dependent and j not in first]
+    fb = basis_factor(F.R_x, basis, dependent, rhs=F.R_xy[:p, p])
+    k = len(basis)
+    beta = np.zeros(p)
+    if k:
+        beta[basis] = solve_triangular(fb.R11, fb.qty[:k]) / F.scales[basis]
+    Q, _ = np.linalg.qr(Wn)
+    return beta - Q @ (Q.T @ beta)
+
+
+def null_matrix(names: list[str], relations: list[Relation]) -> np.ndarray:
+    """(p, d) null vectors of X, one per relation: 1 on its column, −c_b on its basis columns."""
+    idx = {c: j for j, c in enumerate(names)}
+    W = np.zeros((len(names), len(relations)))
+    for i, r in enumerate(relations):
+        W[idx[r.column], i] = 1.0
+        for c, v in r.combination.items():
+            W[idx[c], i] = -v
+    return W
 
 
 def fit_least_squares(F: Factorization, basis: Basis, relations: list[Relation], rank: int) -> Fit:
@@ -168,7 +198,9 @@ def fit_least_squares(F: Factorization, basis: Basis, relations: list[Relation],
         fstat = finite_or_none(((tss - rss) / df_model) / (rss / df_res)) if rss > 0 else None
         if fstat is not None:
             fp = float(stats.f.sf(fstat, df_model, df_res))
-    mn = min_norm_solution(F, rank)
+    mn = min_norm_solution(F, null_matrix(names, relations)) if relations else np.zeros(p)
+    if not relations:
+        mn[B] = b
     return Fit(
         coefficients=coef,
         std_errors=ses,

@@ -11,7 +11,7 @@ from dataclasses import dataclass
 import numpy as np
 import pandas as pd
 
-from app.core.reduce import block_rows, reduce_blocks
+from app.core.reduce import block_rows, reduce_blocks, shifts_of, unshift
 from app.core.workspace import Workspace
 from app.design.apply_roles import levels_of
 from app.design.bench import Bench, Col
@@ -76,8 +76,10 @@ def _entries(bench: Bench, first: Bench) -> tuple[list[Entry], dict[str, np.ndar
     return entries, arrays, bounds
 
 
-def _row_blocks(arrays: list[np.ndarray], y: np.ndarray, n: int) -> Iterator[np.ndarray]:
-    """Row blocks of [1, held columns, y], never the whole matrix at once."""
+def _row_blocks(arrays: list[np.ndarray], y: np.ndarray, n: int,
+                shifts: np.ndarray) -> Iterator[np.ndarray]:
+    """Row blocks of [1, held columns − shifts, y − shift], never the whole matrix at once
+    (the shifts keep offsets from costing digits; reduce.unshift puts them back)."""
     k = len(arrays) + 2
     step = block_rows(k)
     for s in range(0, n, step):
@@ -85,8 +87,8 @@ def _row_blocks(arrays: list[np.ndarray], y: np.ndarray, n: int) -> Iterator[np.
         B = np.empty((sl.stop - sl.start, k), order="F")  # LAPACK's layout: no copy there
         B[:, 0] = 1.0
         for j, a in enumerate(arrays, start=1):
-            B[:, j] = a[sl]
-        B[:, k - 1] = y[sl]
+            np.subtract(a[sl], shifts[j], out=B[:, j])
+        np.subtract(y[sl], shifts[k - 1], out=B[:, k - 1])
         yield B
 
 
@@ -108,7 +110,11 @@ def start(table: Table, recipe: Recipe) -> Start:
         resp_id = entries[next(k for k, c in enumerate(bench.cols) if c is resp)].held
     n = bench.n
     y = arrays[resp_id] if resp_id is not None else np.zeros(n)
-    T = reduce_blocks(_row_blocks([arrays[h] for h in ids], y, n), len(ids) + 2)
+    held = [arrays[h] for h in ids]
+    head = min(n, block_rows(len(ids) + 2))
+    shifts = shifts_of(np.column_stack([np.zeros(head)] + [a[:head] for a in held]
+                                       + [y[:head]]))
+    T = unshift(reduce_blocks(_row_blocks(held, y, n, shifts), len(ids) + 2), shifts)
     ws = Workspace(T=T, names=tuple(ids), visible=(), response=resp_id, n=n,
                    sum_weights=float(n))
     scale = {h: float(np.linalg.norm(T[:, 1 + i])) for i, h in enumerate(ids)}

@@ -218,7 +218,7 @@ def test_factor_blocks_agree_with_one_qr() -> None:
     assert np.allclose(np.abs(F.T[:4, :4]), np.abs(R[:4, :4]), rtol=1e-10, atol=1e-9)
 
 
-def test_all_levels_without_intercept_is_a_centered_dependency() -> None:
+def test_all_levels_without_intercept_take_the_vifs_of_the_constant_design() -> None:
     rng = np.random.default_rng(12)
     n = 90
     codes = np.arange(n) % 3
@@ -233,7 +233,13 @@ def test_all_levels_without_intercept_is_a_centered_dependency() -> None:
     assert d.vif_centered and d.fit["r_squared_centered"]
     ref = sm.OLS(y, X[:, :4]).fit()  # reference: statsmodels (implicit constant detected)
     assert np.isclose(d.fit["r_squared"], ref.rsquared, rtol=1e-10)
-    # regressing g[a] on the others with a constant gives R² = 1 (g[a] = 1 − g[b] − g[c]):
-    # infinite VIF by definition; x and x2 are an exact pair
-    assert all(d.vif[c] is None for c in names)
-    assert d.gvif["g"]["gvif"] is None
+    # x and x2 are an exact pair: infinite VIF. The last level carries the constant: it has
+    # no VIF, and the other levels get the VIFs of the design with g[c] replaced by the
+    # constant (reference: statsmodels' auxiliary regressions on [1, g[a], g[b], x]).
+    assert d.vif["x"] is None and d.vif["x2"] is None
+    assert "g[c]" not in d.vif and "g[c]" in d.vif_absent
+    Xc = np.column_stack([np.ones(n), D[:, :2], x])
+    for j, c in ((1, "g[a]"), (2, "g[b]")):
+        assert np.isclose(d.vif[c], variance_inflation_factor(Xc, j), rtol=1e-10)
+    # no level is in a relation: the group's GVIF is finite
+    assert d.gvif["g"]["gvif"] is not None

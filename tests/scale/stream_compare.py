@@ -16,7 +16,7 @@ from app.tables.read import read_table
 REL = 1e-10
 #: Fields that exist only with the rows in memory (rank correlations, residuals on rows,
 #: extended-precision refinement steps) or are wording.
-ROWS_ONLY = {"residual_rows", "spearman", "refinement_steps", "notes"}
+ROWS_ONLY = {"residual_rows", "verified", "spearman", "refinement_steps", "notes"}
 #: p-values live in [0, 1], far in the tail their relative error says nothing; an exact
 #: relation's residual (relative to its column's length) is rounding, near 1e-15.
 ABSOLUTE = {"p_values", "f_p_value", "residual"}

@@ -1,0 +1,125 @@
+"""The one rank decision: numerical rank from the SVD of the unit-length columns, and the
+basis and dependent columns that follow from it. Small (p, p) factors only; no names, no I/O.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from app.core.basis import Basis, basis_factor
+
+EPS = float(np.finfo(np.float64).eps)
+
+#: A column may stand on the left of an equation (be deferred) only when its row of the
+#: null-space basis keeps at least this much length beyond the rows already chosen.
+#: Below it the column's part in the dependencies is rounding noise (or so small that
+#: writing it through the others would magnify the noise by more than 1/sqrt(eps)).
+#: sqrt(eps) ≈ 1.5e-8 is the usual split between signal and noise (Golub & Van Loan,
+#: Matrix Computations, 4th ed., §5.5.6, numerical rank and subset selection).
+PIVOT_FLOOR = float(np.sqrt(EPS))
+
+
+def default_tolerance(sigma_max: float, n: int, p: int) -> float:
+    """σ_max·max(n, p)·eps: the usual numerical-rank tolerance.
+
+    Golub & Van Loan, Matrix Computations, 4th ed., §5.4.1; the same rule as
+    numpy.linalg.matrix_rank and Press et al., Numerical Recipes, 3rd ed., §2.6.
+    """
+    return float(sigma_max) * max(n, p) * EPS
+
+
+@dataclass(frozen=True)
+class RankDecision:
+    """Rank, tolerance and basis of the unit-length X, all from one SVD.
+
+    rank: number of singular values of Xe above tol. singular_values: (p,) descending.
+    null: (p, p − rank) orthonormal basis of the numerical null space (right singular
+        vectors of the singular values at or below tol).
+    basis: the Basis factor (app.core.basis) with exactly `rank` basis columns, constant
+        columns first, then the caller's priority order; the p − rank others dependent.
+    """
+
+    rank: int
+    tol: float
+    singular_values: np.ndarray
+    null: np.ndarray
+    basis: Basis
+
+
+def dependent_columns(null: np.ndarray, order: list[int], floor: float = PIVOT_FLOOR
+                      ) -> list[int]:
+    """Choose which p − r columns are written through the others, lowest priority first.
+
+    null: (p, k) orthonormal null-space basis N. A set D of k columns can be written
+    through the rest exactly when N[D, :] is nonsingular; the smallest singular value of
+    N[D, :] bounds how much the basis loses against the best possible one (subset
+    selection, Golub, Klema & Stewart, Stanford TR STAN-CS-76-559, 1976; Golub & Van Loan
+    §5.5.6). Walking the priority order backwards, a column joins D when its row keeps
+    more than `floor` (relative to the largest row) after projecting off the rows already
+    in D: modified Gram–Schmidt on the rows, so the keep priority is honoured wherever the
+    numbers allow it and never at the price of a singular basis.
+    """
+    p, k = null.shape
+    if k == 0:
+        return []
+    rows = null.copy()
+    top = float(np.max(np.linalg.norm(rows, axis=1))) or 1.0
+    chosen: list[int] = []
+    directions: list[np.ndarray] = []
+    for j in reversed(order):
+        v = rows[j].copy()
+        for q in directions:
+            v -= (q @ v) * q
+        length = float(np.linalg.norm(v))
+        if length > floor * top:
+            chosen.append(j)
+            directions.append(v / length)
+            if len(chosen) == k:
+                return chosen
+    # Fewer than k rows stood out (only when the null space is itself noise): take the
+    # longest remaining rows so that exactly k columns are deferred.
+    rest = [j for j in reversed(order) if j not in chosen]
+    while len(chosen) < k and rest:
+        lens = []
+        for j in rest:
+            v = rows[j].copy()
+            for q in directions:
+                v -= (q @ v) * q
+            lens.append(float(np.linalg.norm(v)))
+        i = int(np.argmax(lens))
+        j = rest.pop(i)
+        v = rows[j].copy()
+        for q in directions:
+            v -= (q @ v) * q
+        chosen.append(j)
+        directions.append(v / max(float(np.linalg.norm(v)), 1e-300))
+    return chosen
+
+
+def decide(
+    A: np.ndarray,
+    svd: tuple[np.ndarray, np.ndarray, np.ndarray],
+    order: list[int],
+    tol: float,
+    constants: list[int],
+    rhs: np.ndarray | None = None,
+) -> RankDecision:
+    """The rank and basis of the unit-length columns A (m, p) from their SVD.
+
+    svd: (U, d, Vt) of A. order: basis priority, a permutation of range(p). tol: absolute
+    threshold on d. constants: columns whose centred part is zero; they lead the QR of the
+    basis so that the remaining columns are reduced in centred form.
+    """
+    _, d, Vt = svd
+    p = A.shape[1]
+    rank = int(np.sum(d > tol)) if d.size else 0
+    null = Vt[rank:].T if p else np.zeros((0, 0))
+    dependent = dependent_columns(null, order)
+    dep = set(dependent)
+    basis = [j for j in order if j not in dep]
+    first = [j for j in basis if j in constants]
+    qr_order = first + [j for j in basis if j not in first]
+    dependent = [j for j in order if j in dep]
+    return RankDecision(rank, tol, d, null, basis_factor(A, qr_order, dependent, rhs))
