@@ -11,6 +11,7 @@ import numpy as np
 from scipy.linalg import solve_triangular
 
 from app.core.basis import Basis
+from app.core.factor import column_norms
 from app.core.numbers import short_number
 
 EPS = float(np.finfo(np.float64).eps)
@@ -159,12 +160,13 @@ def data_residual(X: np.ndarray, rel: Relation, columns: list[str]) -> float:
     idx = {c: j for j, c in enumerate(columns)}
     d = X[:, idx[rel.column]].astype(np.longdouble)
     fit = np.zeros_like(d)
-    size = float(np.linalg.norm(X[:, idx[rel.column]]))
+    size = float(column_norms(X[:, [idx[rel.column]]])[0])
     for name, c in rel.combination.items():
         x = X[:, idx[name]]
         fit += np.longdouble(c) * x.astype(np.longdouble)
-        size += abs(c) * float(np.linalg.norm(x))
-    return float(np.linalg.norm(np.asarray(d - fit, dtype=np.float64)) / max(size, 1e-300))
+        size += abs(c) * float(column_norms(x[:, None])[0])
+    r = np.asarray(d - fit, dtype=np.float64)
+    return float(column_norms(r[:, None])[0] / size) if size > 0 else 0.0
 
 
 def null_vectors(rels: list[Relation], columns: list[str]) -> list[dict[str, float]]:

@@ -208,7 +208,8 @@ def diagnose_factor(
     # Index table of the basis design (an exact dimension would swamp every share), then
     # one exact row per relation with the columns of its equation.
     in_basis = sorted(basis.basis)
-    table = cnd.index_table(R_eq[:, in_basis], 0.0, index_threshold, proportion_threshold)
+    table = cnd.index_table(R_eq[:, in_basis], 0.0, index_threshold, proportion_threshold,
+                            svd=F.svd_eq if len(in_basis) == p else None)
     props = []
     for row in table.proportions:
         share = dict.fromkeys(names, 0.0)

@@ -13,6 +13,10 @@ import numpy as np
 from app.core.reduce import block_rows, reduce_blocks, shifts_of, unshift
 
 EPS = float(np.finfo(np.float64).eps)
+#: Column magnitudes the core accepts: below SMALLEST float64 loses digits towards the
+#: subnormal range (2.2e-308), above LARGEST products of two entries overflow (1.8e308).
+SMALLEST = 1e-290
+LARGEST = 1e150
 
 
 def _blocks(X: np.ndarray, y: np.ndarray, sw: np.ndarray | None, shifts: np.ndarray):
@@ -229,6 +233,13 @@ def factorize(
         n_pos, sum_w = int(np.count_nonzero(w)), float(w.sum())
     if not (np.all(np.isfinite(X)) and np.all(np.isfinite(yv))):
         raise ValueError("X and y must be finite")
+    top = np.max(np.abs(X), axis=0) if n else np.zeros(p)
+    for j in range(p):
+        if 0.0 < top[j] < SMALLEST or top[j] > LARGEST:
+            raise ValueError(
+                f"column {columns[j]!r} has largest magnitude {top[j]:g}, outside "
+                f"[{SMALLEST:g}, {LARGEST:g}] where float64 keeps its digits through the "
+                "analysis; rescale it (multiply by a power of ten) first")
     head = min(n, block_rows(p + 2))
     shifts = shifts_of(np.column_stack([np.zeros(head), X[:head], yv[:head]]))
     T = unshift(reduce_blocks(_blocks(X, yv, sw, shifts), p + 2), shifts)

@@ -21,9 +21,24 @@ from app.tables.errors import InputError
 LARGEST = 1e150
 
 
+#: A column whose largest magnitude is below this is refused: float64 numbers lose digits
+#: towards the subnormal range (below 2.2e-308, IEEE 754), so its relations would be noise.
+SMALLEST = 1e-290
+
+
 def _check_magnitude(bench: Bench, col: Col, values: np.ndarray) -> None:
     with np.errstate(invalid="ignore"):
+        mags = np.abs(values[np.isfinite(values)])
+        top = float(mags.max()) if mags.size else 0.0
         big = np.abs(values) > LARGEST
+    if 0.0 < top < SMALLEST:
+        i = int(np.flatnonzero(np.abs(values) == top)[0])
+        raise InputError(
+            f"{quoted(col.name)} holds no value larger than {top:g} in magnitude, too small to "
+            f"compute with (below {SMALLEST:g} double precision loses digits)",
+            bench.where(i, col),
+            "Rescale the column (a multiply step, e.g. by 1e300), or check the values",
+        )
     if big.any():
         i = int(np.flatnonzero(big)[0])
         raise InputError(

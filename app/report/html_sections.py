@@ -128,6 +128,7 @@ def inflation(d: dict) -> str:
     parts = [table(["column", "VIF", "tolerance", ""], rows, {1, 2}, f"VIF, {how}"),
              para(f"VIF = 1/(1 − R²) of the column regressed on the others; ∞ for a column in "
                   f"an exact dependency. The mark at {VIF_MARK:g} is common practice."),
+             *[para(f"No VIF for {c}: {why}.") for c, why in (d.get("vif_absent") or {}).items()],
              chart("inflation")]
     gv = d.get("gvif") or {}
     if gv:

@@ -207,6 +207,8 @@ def _vif(d: dict) -> list[str]:
     lines += table(rows, {1, 2})
     lines += wrap(f"VIF = 1/(1 − R²) of the column on the others; ∞ for a column in an exact "
                   f"dependency; the mark at {VIF_MARK:g} is common practice.")
+    for c, why in (d.get("vif_absent") or {}).items():
+        lines += wrap(f"No VIF for {c}: {why}.")
     gv = d.get("gvif") or {}
     if gv:
         lines.append("")
