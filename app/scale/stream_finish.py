@@ -10,7 +10,7 @@ from dataclasses import dataclass, field, replace
 import numpy as np
 
 from app.core.factor import Factorization
-from app.core.reduce import upper_sign_fixed
+from app.core.reduce import unshift, upper_sign_fixed
 from app.core.workspace import CONSTANT, Workspace
 from app.design.assemble import coded_levels
 from app.design.bench import PREDICTOR, RESPONSE
@@ -93,7 +93,7 @@ def workspace(p: Partial) -> tuple[Workspace, dict[Key, str]]:
     """The pass's factor as a Workspace of [1, held columns, y = 0]."""
     k = 1 + len(p.bases)
     T = np.zeros((k + 1, k + 1))
-    T[:k, :k] = upper_sign_fixed(p.R)
+    T[:k, :k] = unshift(upper_sign_fixed(p.R), np.concatenate([[0.0], p.shift]))
     ids = {key: f"#{i}" for i, key in enumerate(p.bases)}
     ws = Workspace(T=T, names=tuple(ids.values()), visible=(), response=None, n=p.kept,
                    sum_weights=float(p.kept))

@@ -296,3 +296,29 @@ def test_legacy_and_utf16_text(tmp_path: Path) -> None:
         # Reference: the in-memory analysis of the same file.
         assert differences(got, ref) == [], enc
         assert info.groups == {"place": ["place[Zürich]"]}  # the level names pandas wrote
+
+
+def test_offsets_cost_no_digits_when_streamed(tmp_path: Path) -> None:
+    """A timestamp beside the hours it was built from, and a Kelvin column beside a small
+    range: the streamed factor keeps the centred digits the in-memory one keeps."""
+    rng = np.random.default_rng(7)
+    n = 1500
+    hours = rng.uniform(0, 100, n)
+    temp = 290.0 + rng.normal(0, 0.01, n)  # 290 K with a spread of 0.01
+    other = rng.normal(size=n)
+    df = pd.DataFrame({"stamp": 1.7e9 + 3600.0 * hours, "hours": hours, "temp": temp,
+                       "other": other + 0.2 * (temp - 290) * 100,
+                       "y": 2 * hours + 30 * temp + rng.normal(size=n)})
+    path = tmp_path / "offsets.csv"
+    df.to_csv(path, index=False, float_format="%.17g")
+    steps = [{"step": "response", "column": "y"}]
+    ref, _ = in_memory(path, steps)
+    got, _ = streamed(path, steps, block_rows=BLOCK)
+    # Reference: the in-memory analysis of the same file (textbook: stamp is affine in hours).
+    assert [d["column"] for d in ref["dependencies"]] == ["hours"]
+    assert differences(got, ref) == []
+    # Reference: statsmodels' auxiliary regression for the VIF of temp on [1, stamp, other].
+    from statsmodels.stats.outliers_influence import variance_inflation_factor
+
+    X = np.column_stack([np.ones(n), df["stamp"], df["temp"], df["other"]])
+    assert np.isclose(got["vif"]["temp"], variance_inflation_factor(X, 2), rtol=1e-9)
