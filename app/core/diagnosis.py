@@ -51,6 +51,7 @@ class Diagnosis:
     thresholds: dict[str, float]
     vif: dict[str, float | None]
     tolerance: dict[str, float]
+    se_inflation: dict[str, float | None]
     vif_centered: bool
     vif_absent: dict[str, str]
     gvif: dict[str, dict]
@@ -262,6 +263,9 @@ def diagnose_factor(
         for c in names if (c in involved or c in by_col) and names.index(c) not in explicit[:1]
     }
     tolerance = {c: (0.0 if v is None else 1.0 / v) for c, v in vif.items()}
+    # √VIF: the standard error is that many times what uncorrelated columns would give
+    # (var(b_j) = σ²·VIF_j/‖x_j − x̄_j‖², Belsley, Kuh & Welsch 1980, §2.1).
+    se_inflation = {c: (None if v is None else float(np.sqrt(v))) for c, v in vif.items()}
 
     gv: dict[str, dict] = {}
     for gname, gcols in (groups or {}).items():
@@ -343,6 +347,7 @@ def diagnose_factor(
         thresholds={"condition_index": index_threshold, "proportion": proportion_threshold},
         vif=vif,
         tolerance=tolerance,
+        se_inflation=se_inflation,
         vif_centered=vif_centered,
         vif_absent=absent,
         gvif=gv,

@@ -120,14 +120,18 @@ def inflation(d: dict) -> str:
     if not vif:
         return ""
     rows = []
+    se = d.get("se_inflation") or {}
     for c, v in vif.items():
         note = "in an exact dependency" if v is None else (
             f"above {VIF_MARK:g}" if v > VIF_MARK else "")
-        rows.append([c, num(v, 4, INF), num(d["tolerance"].get(c), 3), note])
+        rows.append([c, num(v, 4, INF), num(d["tolerance"].get(c), 3), num(se.get(c), 3, INF),
+                     note])
     how = "centered" if d["vif_centered"] else "uncentered (the model has no constant)"
-    parts = [table(["column", "VIF", "tolerance", ""], rows, {1, 2}, f"VIF, {how}"),
+    parts = [table(["column", "VIF", "tolerance", "SE ×", ""], rows, {1, 2, 3}, f"VIF, {how}"),
              para(f"VIF = 1/(1 − R²) of the column regressed on the others; ∞ for a column in "
-                  f"an exact dependency. The mark at {VIF_MARK:g} is common practice."),
+                  f"an exact dependency. The mark at {VIF_MARK:g} is common practice. SE × is "
+                  "√VIF: the standard error is that many times what uncorrelated columns "
+                  "would give."),
              *[para(f"No VIF for {c}: {why}.") for c, why in (d.get("vif_absent") or {}).items()],
              chart("inflation")]
     gv = d.get("gvif") or {}

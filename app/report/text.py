@@ -196,17 +196,20 @@ def _vif(d: dict) -> list[str]:
     how = ("centered (the model holds a constant)" if d["vif_centered"]
            else "uncentered (no constant in the model)")
     lines = heading(f"Variance inflation, {how}")
-    rows = [["column", "VIF", "tolerance", ""]]
+    rows = [["column", "VIF", "tolerance", "SE ×", ""]]
+    se = d.get("se_inflation") or {}
     for c, v in vif.items():
         note = ""
         if v is None:
             note = "in an exact dependency"
         elif v > VIF_MARK:
             note = f"above {VIF_MARK:g}"
-        rows.append([c, num(v, 4, INF), num(d["tolerance"].get(c), 3), note])
-    lines += table(rows, {1, 2})
+        rows.append([c, num(v, 4, INF), num(d["tolerance"].get(c), 3),
+                     num(se.get(c), 3, INF), note])
+    lines += table(rows, {1, 2, 3})
     lines += wrap(f"VIF = 1/(1 − R²) of the column on the others; ∞ for a column in an exact "
-                  f"dependency; the mark at {VIF_MARK:g} is common practice.")
+                  f"dependency; the mark at {VIF_MARK:g} is common practice. SE × = √VIF: the "
+                  "standard error is that many times what uncorrelated columns would give.")
     for c, why in (d.get("vif_absent") or {}).items():
         lines += wrap(f"No VIF for {c}: {why}.")
     gv = d.get("gvif") or {}

@@ -135,6 +135,7 @@ def vif_rows(diagnosis: dict[str, Any]) -> list[dict[str, Any]]:
             "column": col,
             "vif": v,
             "tolerance": diagnosis["tolerance"].get(col),
+            "se_inflation": (diagnosis.get("se_inflation") or {}).get(col),
             "group": g,
             "gvif_scaled": info["gvif_scaled"] if info else None,
             "infinite": v is None,
