@@ -233,7 +233,8 @@ def factorize(
         n_pos, sum_w = int(np.count_nonzero(w)), float(w.sum())
     if not (np.all(np.isfinite(X)) and np.all(np.isfinite(yv))):
         raise ValueError("X and y must be finite")
-    top = np.max(np.abs(X), axis=0) if n else np.zeros(p)
+    # Largest magnitude per column without an |X| copy of the whole matrix.
+    top = np.maximum(X.max(axis=0), -X.min(axis=0)) if n else np.zeros(p)
     for j in range(p):
         if 0.0 < top[j] < SMALLEST or top[j] > LARGEST:
             raise ValueError(
