@@ -270,9 +270,11 @@ def run_check(args: argparse.Namespace) -> int:
     table = read(args)
     if not args.recipe:
         check_names(args, table.columns)
-    from app.core.diagnosis import diagnose
+    from app.core.diagnosis import diagnose_factor
+    from app.core.factor import factorize
     from app.design.recipe import Recipe, build_design
     from app.report.cautions import choose_cautions
+    from app.report.remedies import remedies_of
 
     steps = recipe_steps(args, dict(table.kinds))
     try:
@@ -285,10 +287,12 @@ def run_check(args: argparse.Namespace) -> int:
 
             raise InputError(f"the design has no column named {quoted(name)}", "--keep",
                              suggestion(name, design.columns))
-    diagnosis = diagnose(
-        design.X, design.columns, design.y, response=design.response, groups=design.groups,
-        keep=list(args.keep) or None, tol=args.tol,
-    ).to_dict()
+    F = factorize(design.X, design.columns, design.y)
+    keep = list(args.keep) or None
+    found = diagnose_factor(F, response=design.response, groups=design.groups, keep=keep,
+                            tol=args.tol)
+    diagnosis = found.to_dict()
+    diagnosis["remedies"] = remedies_of(found, F, design, steps.steps, keep, args.tol)
     checks = evaluate(rules, diagnosis)
     if args.json:
         doc = dict(diagnosis)

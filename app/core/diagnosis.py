@@ -156,8 +156,11 @@ def diagnose_factor(
     index_threshold: float = cnd.INDEX_THRESHOLD,
     proportion_threshold: float = cnd.PROPORTION_THRESHOLD,
     rank_correlation: bool = True,
+    correlations: bool = True,
 ) -> Diagnosis:
     """Every diagnostic from one Factorization.
+
+    correlations: False leaves the correlation matrices empty (a preview needs none).
 
     tol: absolute rank tolerance on the singular values of the unit-length X (Xe);
     default σ_max·max(n, p)·eps. keep: columns to keep in the basis when columns are
@@ -284,7 +287,7 @@ def diagnose_factor(
             "gvif_scaled": None if val is None else float(val ** (1.0 / (2 * dfg))),
         }
 
-    pear = pearson_from_factor(Zc)
+    pear = pearson_from_factor(Zc) if correlations else np.zeros((0, 0))
     spear = None
     if rank_correlation and F.X is not None and nonconst:
         rows = spearman_rows(F.n, F.X.shape[0])
@@ -296,7 +299,7 @@ def diagnose_factor(
         "columns": [names[j] for j in nonconst],
         "pearson": pear.tolist(),
         "spearman": None if spear is None else spear.tolist(),
-        "order": cluster_order(pear),
+        "order": cluster_order(pear) if correlations else [],
     }
 
     fit = None

@@ -5,7 +5,7 @@ Builds arrays only; diagnosing them (rank, dependencies) is the core's job.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 
@@ -152,6 +152,7 @@ class Matrix:
     y: np.ndarray | None
     groups: dict[str, list[str]]
     notes: list[str]
+    references: dict[str, str] = field(default_factory=dict)
 
 
 def _raise_problem(col: Col) -> None:
@@ -165,6 +166,7 @@ def assemble(bench: Bench, plan: Plan) -> Matrix:
     names: list[str] = []
     arrays: list[np.ndarray] = []
     groups: dict[str, list[str]] = {}
+    references: dict[str, str] = {}
     if bench.intercept:
         names.append(INTERCEPT)
         arrays.append(np.ones(bench.n))
@@ -174,6 +176,10 @@ def assemble(bench: Bench, plan: Plan) -> Matrix:
             pairs = _indicators(col, notes)
             if pairs:
                 groups[col.name] = [name for name, _ in pairs]
+                levels = levels_of(col)
+                ref = col.reference if col.reference is not None else levels[0]
+                if ref != ALL_LEVELS:
+                    references[col.name] = ref
         else:
             pairs = [(col.name, col.values.astype(float))]
             _check_magnitude(bench, col, pairs[0][1])
@@ -208,4 +214,4 @@ def assemble(bench: Bench, plan: Plan) -> Matrix:
         y = plan.response.values.astype(float)
         _check_magnitude(bench, plan.response, y)
     X = np.column_stack(arrays).astype(np.float64, copy=False)
-    return Matrix(np.ascontiguousarray(X), names, y, groups, notes)
+    return Matrix(np.ascontiguousarray(X), names, y, groups, notes, references)

@@ -19,6 +19,8 @@ class Design:
     X: (n, p) float64, no missing values. columns: p names, INTERCEPT for the constant.
     y: (n,) float64 or None. response: its column name or None.
     groups: categorical column -> the indicator columns of X that encode it (for GVIF).
+    references: categorical column -> its reference level (the one without a column);
+        absent when every level has a column.
     rows_total / rows_used: rows in the table and rows kept after listwise deletion.
     dropped_by: column -> number of rows dropped because that column was missing.
     notes: plain sentences about what the recipe did.
@@ -29,6 +31,7 @@ class Design:
     y: np.ndarray | None = None
     response: str | None = None
     groups: dict[str, list[str]] = field(default_factory=dict)
+    references: dict[str, str] = field(default_factory=dict)
     rows_total: int = 0
     rows_used: int = 0
     dropped_by: dict[str, int] = field(default_factory=dict)

@@ -117,6 +117,7 @@ def trace_design(table: Table, steps: Sequence[dict[str, Any]]) -> Trace:
         y=matrix.y,
         response=plan.response.name if plan.response is not None else None,
         groups=matrix.groups,
+        references=matrix.references,
         rows_total=n,
         rows_used=used,
         dropped_by=dropped_by,

@@ -9,6 +9,8 @@ import math
 import re
 import textwrap
 
+import numpy as np
+
 from app.design.design import Design
 from app.report.cautions import VIF_MARK, choose_cautions
 
@@ -276,6 +278,42 @@ def _cautions(d: dict) -> list[str]:
     return lines
 
 
+#: Remedies listed in the terminal report (the JSON has them all).
+REMEDIES_SHOWN = 8
+
+
+def _remedies(d: dict) -> list[str]:
+    rows_in = d.get("remedies") or []
+    if not rows_in:
+        return []
+    lines = heading("Remedies, previewed")
+    lines += wrap("Each change evaluated on the factor without applying it: the rank after, "
+                  "the largest finite VIF, the condition number of the unit-length columns "
+                  "and the largest change of a standard error. Best first.")
+    rows = [["change", "rank", "largest VIF", "cond", "SE change", ""]]
+    for r in rows_in[:REMEDIES_SHOWN]:
+        top = r["largest_finite_vif"]
+        vif = "—" if top is None else f"{num(top['vif'], 3)} ({top['column']})"
+        if r["infinite_vif"]:
+            vif = f"∞ ({len(r['infinite_vif'])} columns)"
+        se = r.get("se_ratio") or {}
+        far = max(se.items(), key=lambda kv: abs(np.log(kv[1])) if kv[1] > 0 else 0.0,
+                  default=None)
+        se_text = "—" if far is None else (
+            "no change" if abs(np.log(far[1])) < 1e-9 else f"×{far[1]:.3g} {far[0]}")
+        rows.append([r["label"], f"{r['rank']}/{r['columns']}", vif,
+                     num(r["condition_number"]["equilibrated"], 3, INF), se_text, ""])
+    lines += table(rows, {1, 3})
+    for r in rows_in[:REMEDIES_SHOWN]:
+        if r.get("centering"):
+            lines += wrap(f"{r['label']}: {r['centering']}.", "  · ", "    ")
+    if len(rows_in) > REMEDIES_SHOWN:
+        lines += wrap(f"{len(rows_in) - REMEDIES_SHOWN} more in the JSON output (--json).")
+    lines += wrap("A drop changes what the other coefficients mean; prefer the change your "
+                  "subject knowledge supports, not only the best numbers.")
+    return lines
+
+
 def render_text(
     diagnosis: dict, design: Design, *, source: str | None = None, notes: list[str] | None = None
 ) -> str:
@@ -288,6 +326,7 @@ def render_text(
     lines += _index_table(diagnosis)
     lines += _vif(diagnosis)
     lines += _fit(diagnosis)
+    lines += _remedies(diagnosis)
     lines += _cautions(diagnosis)
     # Column names and notes come from the file: shown, never obeyed by the terminal.
     return inert("\n".join(lines)) + "\n"
