@@ -290,7 +290,7 @@ def run_check(args: argparse.Namespace) -> int:
     F = factorize(design.X, design.columns, design.y)
     keep = list(args.keep) or None
     found = diagnose_factor(F, response=design.response, groups=design.groups, keep=keep,
-                            tol=args.tol)
+                            tol=args.tol, influence=args.influence)
     diagnosis = found.to_dict()
     diagnosis["remedies"] = remedies_of(found, F, design, steps.steps, keep, args.tol)
     checks = evaluate(rules, diagnosis)
@@ -419,6 +419,9 @@ def build_parser() -> Parser:
                        help="absolute rank tolerance on the singular values of the unit-length "
                             "columns (default: σ_max·max(n, p)·eps)")
     check.add_argument("--json", action="store_true", help="print the diagnosis as JSON")
+    check.add_argument("--influence", action="store_true",
+                       help="also find the rows behind the condition number and each flagged "
+                            "near-dependency (exact leave-one-out, one more pass over the rows)")
     check.add_argument("--stream", action="store_true",
                        help="read FILE block by block (CSV/TSV, .gz or Parquet larger than "
                             "memory); progress on stderr")

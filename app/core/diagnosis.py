@@ -16,6 +16,7 @@ from app.core.dependencies import data_residual, null_vectors, relations
 from app.core.factor import Factorization, factorize
 from app.core.fit import fit_least_squares
 from app.core.inflation import gvif, vif_from_factor
+from app.core.influence import leave_one_out
 from app.core.numbers import finite_or_none
 from app.core.rank import EPS, decide, default_tolerance
 from app.core.ridge import DEFAULT_GRID, ridge_path
@@ -58,6 +59,7 @@ class Diagnosis:
     correlations: dict
     fit: dict | None
     ridge: dict | None
+    influence: dict | None = None
     notes: list[str] = field(default_factory=list)
 
     def to_dict(self) -> dict:
@@ -91,6 +93,7 @@ def diagnose(
     index_threshold: float = cnd.INDEX_THRESHOLD,
     proportion_threshold: float = cnd.PROPORTION_THRESHOLD,
     rank_correlation: bool = True,
+    influence: bool = False,
 ) -> Diagnosis:
     """Factor X (n, p) [and y (n,)] once and derive every diagnostic. See diagnose_factor."""
     F = factorize(X, columns, y, weights)
@@ -98,6 +101,7 @@ def diagnose(
         F, response=response, groups=groups, keep=keep, tol=tol, ridge_penalty=ridge_penalty,
         ridge_grid=ridge_grid, index_threshold=index_threshold,
         proportion_threshold=proportion_threshold, rank_correlation=rank_correlation,
+        influence=influence,
     )
 
 
@@ -157,9 +161,12 @@ def diagnose_factor(
     proportion_threshold: float = cnd.PROPORTION_THRESHOLD,
     rank_correlation: bool = True,
     correlations: bool = True,
+    influence: bool = False,
 ) -> Diagnosis:
     """Every diagnostic from one Factorization.
 
+    influence: also the exact leave-one-out condition number and flagged condition indices
+    for every row (needs the rows; O(n·p²), about one more pass over them).
     correlations: False leaves the correlation matrices empty (a preview needs none).
 
     tol: absolute rank tolerance on the singular values of the unit-length X (Xe);
@@ -317,6 +324,14 @@ def diagnose_factor(
             i = int(np.argmin(np.abs(np.asarray(path.penalties) - ridge_penalty)))
             ridge["chosen"] = path.at(i)
 
+    loo = None
+    if influence and F.X is not None and in_basis:
+        loo = leave_one_out(F.X, F.scales, in_basis, [k for k, _ in table.flagged],
+                            factor=R_eq, row_weights=None if F.weights is None
+                            else np.sqrt(F.weights))
+        for dim, (_, cols) in zip(loo["dimensions"], table.flagged, strict=True):
+            dim["columns"] = [names[in_basis[j]] for j in cols]
+
     for c in [names[j] for j in consts]:
         if c != "(intercept)":
             notes.append(f"Column {c} is constant: it carries no variation of its own.")
@@ -357,5 +372,6 @@ def diagnose_factor(
         correlations=corr,
         fit=fit,
         ridge=ridge,
+        influence=loo,
         notes=notes,
     )

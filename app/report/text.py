@@ -314,6 +314,32 @@ def _remedies(d: dict) -> list[str]:
     return lines
 
 
+#: Rows listed per measure in the terminal report.
+ROWS_SHOWN = 5
+
+
+def _influence(d: dict) -> list[str]:
+    inf = d.get("influence")
+    if not inf:
+        return []
+    lines = heading("Rows behind the conditioning")
+    lines += wrap("Each row left out in turn (exact, by a rank-one downdate of the factor): the "
+                  "rows that move the measure most. Rows count from 1 among the rows used. "
+                  "Leaving rows out is a diagnosis, not a remedy: a row is evidence to check, "
+                  "not to delete.")
+    parts = [("condition number of the basis design", inf["condition_number"]["full"],
+              inf["condition_number"]["top"])]
+    parts += [(f"near-dependency {', '.join(x['columns'])} (index {num(x['index'], 3)})",
+               x["index"], x["top"]) for x in inf["dimensions"]]
+    for title, full, top in parts:
+        lines.append(f"  {title}: {num(full, 4)}")
+        rows = [["row", "without it", "change"]]
+        rows += [[str(t["row"] + 1), num(t["without"], 4, INF), f"{100 * t['change']:.2g}%"]
+                 for t in top[:ROWS_SHOWN]]
+        lines += table(rows, {0, 1, 2}, "    ")
+    return lines
+
+
 def render_text(
     diagnosis: dict, design: Design, *, source: str | None = None, notes: list[str] | None = None
 ) -> str:
@@ -327,6 +353,7 @@ def render_text(
     lines += _vif(diagnosis)
     lines += _fit(diagnosis)
     lines += _remedies(diagnosis)
+    lines += _influence(diagnosis)
     lines += _cautions(diagnosis)
     # Column names and notes come from the file: shown, never obeyed by the terminal.
     return inert("\n".join(lines)) + "\n"
