@@ -52,6 +52,8 @@ LOOP_VS_DIAG = 300.0
 EDIT_VS_DIAG = 0.02
 EDIT_FLAT = 2.0  # edit time at the most rows over edit time at the fewest
 MEMORY = 2.0
+PREVIEW_VS_DIAG = 1.0
+INFLUENCE_VS_DIAG = 2.0
 
 
 @dataclass
@@ -185,6 +187,39 @@ def edit_rows(row_counts: list[int], p: int, repeats: int) -> list[Row]:
     return rows
 
 
+def remedy_rows(n: int, p: int, repeats: int) -> list[Row]:
+    """The remedy previews (every candidate, on the factor) and the rows behind the
+    conditioning (exact leave-one-out) against a full diagnosis of the same design."""
+    from app.core.factor import factorize as factor_of
+    from app.design.recipe import build_design
+    from app.report.remedies import remedies_of
+
+    steps = [{"step": "response", "column": "y"}]
+    design = build_design(planted_table(n, p), Recipe(steps))
+    X, cols, y = design.X, design.columns, design.y
+    t_full = best_of(lambda: diagnose(X, cols, y, response=design.response,
+                                      rank_correlation=False), repeats)
+    F = factor_of(X, cols, y)
+    d = diagnose_factor(F, response=design.response, rank_correlation=False)
+    found = remedies_of(d, F, design, steps, None, None)
+    t_prev = best_of(lambda: remedies_of(d, F, design, steps, None, None), repeats)
+    t_inf = best_of(lambda: diagnose_factor(F, response=design.response,
+                                            rank_correlation=False, influence=True), repeats)
+    t_plain = best_of(lambda: diagnose_factor(F, response=design.response,
+                                              rank_correlation=False), repeats)
+    t_loo = max(t_inf - t_plain, 0.0)
+    size = _size(n, len(cols))
+    return [
+        Row("remedy previews (all) / full diagnosis", size,
+            f"{t_prev / t_full:.2f}× ({len(found)} previews in {_ms(t_prev)} vs "
+            f"{_ms(t_full)})", f"≤ {PREVIEW_VS_DIAG:g}×",
+            _at_most(t_prev / t_full, PREVIEW_VS_DIAG)),
+        Row("rows behind the conditioning (leave-one-out) / full diagnosis", size,
+            f"{t_loo / t_full:.2f}× ({_ms(t_loo)} vs {_ms(t_full)})",
+            f"≤ {INFLUENCE_VS_DIAG:g}×", _at_most(t_loo / t_full, INFLUENCE_VS_DIAG)),
+    ]
+
+
 def render(rows: list[Row]) -> str:
     head = Row("measurement", "size", "measured", "goal", "verdict")
     cells = [[r.what, r.size, r.measured, r.goal, r.verdict] for r in [head, *rows]]
@@ -213,6 +248,8 @@ def main(argv: list[str] | None = None) -> None:
     for n, p in SIZES[mode]:
         rows += diagnosis_rows(n, p, REPEATS[mode], LOOP_COLUMNS[mode])
     rows += edit_rows(EDIT_ROWS[mode], EDIT_COLS[mode], REPEATS[mode])
+    n, p = SIZES[mode][0]
+    rows += remedy_rows(n, p, REPEATS[mode])
     print()
     print(render(rows))
     missed = [r for r in rows if r.verdict == "MISSED"]

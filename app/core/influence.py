@@ -15,6 +15,8 @@ TOP = 10
 #: Rows handled together: the (rows, r) work arrays then stay cache-sized.
 BLOCK = 4096
 EPS = float(np.finfo(np.float64).eps)
+#: A step this small (relative) ends the iteration for that row; see _root.
+SETTLED = 1e-8
 
 
 def _root(lam: np.ndarray, Z2: np.ndarray, k: int) -> np.ndarray:
@@ -78,7 +80,10 @@ def _root(lam: np.ndarray, Z2: np.ndarray, k: int) -> np.ndarray:
         new = np.where(bad, 0.5 * (lo[idx] + hi[idx]), new)
         new = np.where(at_root, u, new)
         mu[idx] = new
-        done = at_root | (hi[idx] - lo[idx] <= 4 * EPS * hi[idx])
+        # The model's error shrinks with the square of its step (it matches f's value and
+        # slope): a step below SETTLED·μ leaves about SETTLED² of μ, past float64.
+        settled = ~bad & (np.abs(new - u) <= SETTLED * np.abs(u))
+        done = at_root | settled | (hi[idx] - lo[idx] <= 4 * EPS * hi[idx])
         active[idx[done]] = False
     return mu
 
