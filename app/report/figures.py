@@ -191,6 +191,39 @@ def inflation_bars(diagnosis: dict) -> Figure | None:
     }
 
 
+def influence_chart(influence: dict) -> Figure | None:
+    """Relative change of each measure (the condition number, each flagged index) with each
+    row left out, by row: the rows behind the conditioning stand out as spikes. Above the
+    row limit only the listed rows are drawn."""
+    series = [("condition number", influence["condition_number"])]
+    series += [(f"index {d['index']:.3g}: " + ", ".join(d["columns"]), d)
+               for d in influence["dimensions"]]
+    colors = [INK, BRICK, AMBER, TEAL, TEAL_LIGHT]
+    data = []
+    for i, (name, m) in enumerate(series):
+        full = m.get("full", m.get("index"))
+        if m["without"] is not None and full:
+            x = list(range(1, len(m["without"]) + 1))
+            y = [abs(v - full) / full for v in m["without"]]
+            mode = "lines"
+        else:
+            x = [t["row"] + 1 for t in m["top"]]
+            y = [t["change"] for t in m["top"]]
+            mode = "markers"
+        data.append({"type": "scattergl" if len(x) > 2000 else "scatter", "mode": mode,
+                     "x": x, "y": y, "name": plot_text(name),
+                     "line": {"color": colors[i % len(colors)], "width": 1},
+                     "marker": {"color": colors[i % len(colors)]},
+                     "hovertemplate": "row %{x}: %{y:.3%}<extra>%{fullData.name}</extra>"})
+    return {
+        "data": data,
+        "layout": _layout("With each row left out: relative change",
+                          xaxis=_axis("row (among the rows used)"),
+                          yaxis=_axis("relative change", tickformat=".1%", rangemode="tozero"),
+                          height=320, legend={"orientation": "h", "y": -0.25}),
+    }
+
+
 def ridge_trace(diagnosis: dict) -> Figure | None:
     """Ridge coefficients along the penalty grid, each divided by its largest size on the
     path so columns of any unit share one axis; the chosen penalty is marked."""
