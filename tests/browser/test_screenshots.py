@@ -7,8 +7,8 @@ import os
 import struct
 from pathlib import Path
 
-from tests.browser.conftest import demo_path
-from tests.browser.screenshots import SHOTS, make_screenshots
+from tests.browser.conftest import ROOT, demo_path
+from tests.browser.screenshots import IMAGES, SHOTS, make_screenshots
 
 PNG_SIGNATURE = b"\x89PNG\r\n\x1a\n"
 MAX_BYTES = 200_000
@@ -31,3 +31,12 @@ def test_screenshots_of_the_demo_are_made_from_the_app(browser, base_url, tmp_pa
         assert width >= 800 and height >= 400, (p.name, width, height)
         assert 10_000 < p.stat().st_size <= MAX_BYTES, (p.name, p.stat().st_size)
 
+
+def test_readme_shows_the_committed_screenshots() -> None:
+    readme = (ROOT / "README.md").read_text(encoding="utf-8")
+    for name in SHOTS:
+        assert f"docs/images/{name}" in readme, name
+        committed = IMAGES / name
+        assert committed.exists(), f"run python -m tests.browser.screenshots to make {name}"
+        assert png_size(committed)[0] >= 800
+        assert committed.stat().st_size <= MAX_BYTES
