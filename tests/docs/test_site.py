@@ -98,6 +98,17 @@ def test_docs_name_the_benchmarks_by_their_new_modules() -> None:
     assert "python -m app.benchmarks.stream" in (DOCS / "big-files.md").read_text(encoding="utf-8")
 
 
+def test_readme_report_excerpt_is_what_check_prints() -> None:
+    excerpt = re.search(r"An excerpt of the report.*?```\n(.*?)\n```", readme(), re.S).group(1)
+    run = subprocess.run([sys.executable, "-m", "app.cli", "check", "demo_data/cold_storage.csv",
+                          "--response", "energy_kwh"], cwd=ROOT, capture_output=True, text=True,
+                         timeout=120)
+    assert run.returncode == 0, run.stderr
+    printed = run.stdout.splitlines()
+    for line in filter(None, excerpt.splitlines()):
+        assert line in printed, line
+
+
 def test_readme_python_example_runs_on_the_demo(monkeypatch, capsys) -> None:
     code = re.search(r"```python\n(.*?)\n```", section(readme(), "python-api"), re.S).group(1)
     monkeypatch.chdir(ROOT)
