@@ -26,7 +26,7 @@ TOLERANCE_RULE = "σ_max(Xe)·max(n, p)·eps (Golub & Van Loan §5.4.1; as numpy
 
 @dataclass
 class Diagnosis:
-    """All diagnostics of one design, as plain types. See README 'JSON contract'."""
+    """All diagnostics of one design, as plain types. See docs/json.md."""
 
     n_rows: int
     columns: list[str]

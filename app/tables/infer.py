@@ -2,7 +2,7 @@
 
 Works on Arrow columns from any reader; knows nothing of file formats or designs.
 
-Rules (see the README's 'Reading tables' section):
+Rules (see docs/reading.md):
 - A column whose present cells are all numbers is numeric, however few distinct values it has
   (0/1 and small integer codes stay numeric; a note names integer columns with 3-10 values).
 - All cells true/false or yes/no (any case) -> boolean. 0/1 is not boolean unless declared.

@@ -1,7 +1,7 @@
 """Read a user's file into a typed Table: read_table(path) for files, read_bytes for uploads.
 
 The format comes from the content where the content says it (gzip, xlsx, Parquet, images and
-other non-tables), else from the extension; see the README's 'Reading tables' section for the rules.
+other non-tables), else from the extension; see docs/reading.md for the rules.
 """
 
 from __future__ import annotations

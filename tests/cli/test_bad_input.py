@@ -13,7 +13,7 @@ from tests.cli.runner import DEMO, Result, run, run_process
 
 
 def one_line(r: Result, *words: str) -> None:
-    """The documented bad-input behaviour (README (command)): code 2, one stderr line, no trace."""
+    """The documented bad-input behaviour (docs/cli.md): code 2, one stderr line, no trace."""
     assert r.code == 2, (r.code, r.err)
     assert r.out == ""
     lines = r.err.splitlines()

@@ -23,7 +23,7 @@ def calls(monkeypatch: pytest.MonkeyPatch) -> list[dict]:
 
 
 def test_defaults(calls: list[dict]) -> None:
-    # Reference: the defaults documented in README (command).
+    # Reference: the defaults documented in docs/cli.md.
     assert run("serve").code == 0
     assert calls == [{"path": None, "host": "127.0.0.1", "port": 8000, "open_browser": True}]
 
@@ -55,7 +55,7 @@ def full_calls(monkeypatch: pytest.MonkeyPatch) -> list[dict]:
 
 
 def test_data_dir_and_share(full_calls: list[dict], tmp_path) -> None:
-    # Reference: README (command) and README (sessions): --share listens on every address of the
+    # Reference: docs/cli.md and docs/sharing.md: --share listens on every address of the
     # local network (0.0.0.0) unless --host says otherwise.
     assert run("serve", "--data-dir", str(tmp_path), "--share", "--no-browser").code == 0
     assert full_calls[-1] == {"path": None, "host": "0.0.0.0", "port": 8000,

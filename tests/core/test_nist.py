@@ -35,7 +35,7 @@ def test_certified_estimates_and_sds(name: str) -> None:
 
 
 def lre_table() -> list[tuple[str, float, float]]:
-    """(dataset, min LRE of estimates, min LRE of standard deviations): for the README."""
+    """(dataset, min LRE of estimates, min LRE of standard deviations): for docs/accuracy.md."""
     rows = []
     for name, prob in PROBS.items():
         X, cols, y = design(prob)
@@ -62,7 +62,7 @@ def test_degree_ten_polynomial_is_fitted_full_rank() -> None:
 
 
 if __name__ == "__main__":
-    # python -m tests.core.test_nist : prints the LRE table recorded in the README.
+    # python -m tests.core.test_nist : prints the LRE table recorded in docs/accuracy.md.
     print("| NIST StRD dataset | min LRE, estimates | min LRE, standard deviations |")
     print("|---|---|---|")
     for name, b, s in lre_table():

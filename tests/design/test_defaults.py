@@ -1,6 +1,6 @@
 """The design an empty recipe makes from a table.
 
-Reference: the defaults stated in README (recipe), with values checked against pandas/numpy.
+Reference: the defaults stated in docs/recipe.md, with values checked against pandas/numpy.
 """
 
 from __future__ import annotations
@@ -27,7 +27,7 @@ def frame() -> pd.DataFrame:
 
 def test_defaults() -> None:
     design = build_design(table(frame()), Recipe())
-    # Reference: README (recipe) defaults: intercept first, table order, dates left out,
+    # Reference: docs/recipe.md defaults: intercept first, table order, dates left out,
     # categorical coded against the first sorted level, booleans as 0/1, no response.
     assert design.columns == [
         INTERCEPT,

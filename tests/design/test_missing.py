@@ -79,7 +79,7 @@ def test_drop_column_policy_acts_only_on_missing_values() -> None:
         table(pd.DataFrame({"x": [1.0, 2.0, 3.0]})),
         Recipe([{"step": "missing", "column": "x", "policy": "drop_column"}]),
     )
-    # Reference: README (recipe), the policy only acts when the column has missing values.
+    # Reference: docs/recipe.md, the policy only acts when the column has missing values.
     assert "x" in complete.columns
 
 

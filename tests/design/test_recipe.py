@@ -1,6 +1,6 @@
 """Recipe objects: JSON round trip, reading mistakes, immutability, deterministic replay.
 
-References: Python's json module (RFC 8259 JSON) and the format in the README's recipe section.
+References: Python's json module (RFC 8259 JSON) and the format in the recipe page (docs/recipe.md).
 """
 
 from __future__ import annotations
@@ -34,7 +34,7 @@ def test_json_round_trip() -> None:
 
 
 def test_bare_list_is_accepted() -> None:
-    # Reference: the README's recipe section allows a bare JSON list of steps.
+    # Reference: the recipe page (docs/recipe.md) allows a bare JSON list of steps.
     assert Recipe.from_json(json.dumps(STEPS)) == Recipe(STEPS)
 
 
@@ -52,7 +52,7 @@ def test_bare_list_is_accepted() -> None:
     ],
 )
 def test_reading_mistakes(text: str, words: str) -> None:
-    # Reference: the README's recipe section (top-level fields, version 1).
+    # Reference: the recipe page (docs/recipe.md) (top-level fields, version 1).
     with pytest.raises(InputError) as e:
         Recipe.from_json(text)
     assert words in str(e.value)

@@ -1,6 +1,6 @@
 """Steps that choose roles and positions: response, intercept, drop, restore, keep, order.
 
-Reference: the rules in README (recipe); values compared with numpy where numbers move.
+Reference: the rules in docs/recipe.md; values compared with numpy where numbers move.
 """
 
 from __future__ import annotations
@@ -37,7 +37,7 @@ def test_response_leaves_the_predictors() -> None:
 
 def test_changing_and_clearing_the_response() -> None:
     design = build({"step": "response", "column": "y"}, {"step": "response", "column": "a"})
-    # Reference: README (recipe), the previous response becomes a predictor again.
+    # Reference: docs/recipe.md, the previous response becomes a predictor again.
     assert design.response == "a" and "y" in design.columns and "a" not in design.columns
     cleared = build({"step": "response", "column": "y"}, {"step": "response", "column": None})
     assert cleared.response is None and cleared.y is None and "y" in cleared.columns
@@ -72,7 +72,7 @@ def test_column_order_with_new_columns() -> None:
         {"step": "combine", "columns": ["d", "a"], "method": "sum", "name": "da"},
         {"step": "center", "column": "y"},
     )
-    # Reference: README (recipe), new columns sit after their first member, in the order made;
+    # Reference: docs/recipe.md, new columns sit after their first member, in the order made;
     # combine takes the first listed member's place; a replaced column keeps its place.
     assert design.columns == [
         INTERCEPT,

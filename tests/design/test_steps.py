@@ -1,6 +1,6 @@
 """Step validation, result names and the history sentences.
 
-References: the recipe format in README (recipe) (our own specification) and the Python
+References: the recipe format in docs/recipe.md (our own specification) and the Python
 json module's notion of types.
 """
 
@@ -43,7 +43,7 @@ def message(excinfo: pytest.ExceptionInfo[InputError]) -> str:
 
 @pytest.mark.parametrize("step", ONE_OF_EACH, ids=lambda s: s["step"])
 def test_valid_steps_pass_and_have_a_sentence(step: dict) -> None:
-    # Reference: README (recipe) lists these as valid; validation returns an equal copy.
+    # Reference: docs/recipe.md lists these as valid; validation returns an equal copy.
     assert validate_step(step, 1) == step
     sentence = describe_step(step)
     # Reference: the UI history shows one sentence (common practice: capital, full stop).
@@ -54,7 +54,7 @@ def test_valid_steps_pass_and_have_a_sentence(step: dict) -> None:
 
 
 def test_every_step_has_a_valid_example() -> None:
-    # Reference: SPECS is the list documented in README (recipe); each needs a test above.
+    # Reference: SPECS is the list documented in docs/recipe.md; each needs a test above.
     assert {s["step"] for s in ONE_OF_EACH} == set(SPECS)
 
 
@@ -100,7 +100,7 @@ def test_unknown_field_lists_the_fields() -> None:
     ],
 )
 def test_bad_steps_say_why(step: object, words: str) -> None:
-    # Reference: README (recipe) (field types and rules for each step).
+    # Reference: docs/recipe.md (field types and rules for each step).
     with pytest.raises(InputError) as e:
         validate_step(step, 2)
     assert words in message(e)
@@ -130,7 +130,7 @@ def test_validated_step_is_a_copy() -> None:
     ],
 )
 def test_result_names(step: dict, name: str) -> None:
-    # Reference: the naming rules in README (recipe).
+    # Reference: the naming rules in docs/recipe.md.
     assert output_name(step) == name
 
 

@@ -156,7 +156,7 @@ def test_bad_json_names_the_place(shop: Path) -> None:
 def test_bad_recipe_files_are_refused_clearly(shop: Path, text: str, found: str) -> None:
     with pytest.raises(InputError) as caught:
         import_recipe(text, read_table(shop), "mine.json")
-    # Reference: the recipe format (README (recipe)): step names, fields, the table's columns.
+    # Reference: the recipe format (docs/recipe.md): step names, fields, the table's columns.
     assert found in caught.value.message and "mine.json" in caught.value.message
     assert caught.value.todo or "Close matches" in caught.value.message
 

@@ -39,7 +39,7 @@ def demo_full() -> str:
 
 
 def test_sections_in_order(demo_full: str) -> None:
-    # Reference: the section order documented in README (command) (dependencies first, cautions
+    # Reference: the section order documented in docs/cli.md (dependencies first, cautions
     # last).
     at = [demo_full.index(s) for s in SECTIONS]
     assert at == sorted(at)
