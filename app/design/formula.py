@@ -120,7 +120,7 @@ def _python_names(code: str, text: str) -> set[str]:
         if isinstance(node, ast.Name) and id(node) in called and node.id not in TRANSFORMS \
                 and not hasattr(builtins, node.id):
             raise InputError(f"the formula calls {quoted(node.id)}, which is not a function "
-                             "formulas know", "formula",
+                             "formulas know", _where(_position_of(node.id, text)),
                              "Use one of: " + ", ".join(sorted(k for k in TRANSFORMS
                                                                if k[0].islower())))
         if isinstance(node, ast.Name):
