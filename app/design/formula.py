@@ -80,16 +80,20 @@ def _syntax_error(text: str, err: Exception) -> InputError:
                       "backticks, `like this`")
 
 
-def parse(text: str) -> Any:
+#: formulaic's context key for what `.` ("every other column") stands for.
+AVAILABLE = "__formulaic_variables_available__"
+
+
+def parse(text: str, available: Sequence[str] = ()) -> Any:
     """The formulaic Formula of `text`; InputError (with the character) when it cannot be
-    read or has more than one response."""
+    read. available: the columns `.` stands for."""
     from formulaic import Formula
     from formulaic.errors import FormulaicError
 
     if not isinstance(text, str) or not text.strip():
         raise InputError("the formula is empty", "formula", "Write it like y ~ a + b")
     try:
-        formula = Formula(text)
+        formula = Formula(text, _context={AVAILABLE: list(available)})
     except FormulaicError as e:
         raise _syntax_error(text, e) from None
     except (SyntaxError, ValueError, TypeError) as e:
@@ -140,7 +144,7 @@ def _required(formula: Any, text: str) -> list[str]:
 
     names = {str(v) for v in formula.required_variables}
     for token in tokenize(text):
-        if token.kind is Token.Kind.NAME:
+        if token.kind is Token.Kind.NAME and token.token != ".":  # "." is every column
             names.add(token.token)
         elif token.kind is Token.Kind.PYTHON:
             names |= _python_names(token.token, text)
@@ -219,7 +223,8 @@ def _check_finite(name: str, values: np.ndarray, index: pd.Index, source: str) -
 def start(table: Table, text: str) -> Start:
     """The formula's columns on the rows it can use, as a Table, plus the steps (response,
     intercept) that make that Table the formula's design."""
-    formula = parse(text)
+    # `.` stands for every column a formula can use: dates are not numbers.
+    formula = parse(text, [str(c) for c in table.columns if table.kinds.get(c) != "date"])
     used = check_names(text, formula, table)
     kept, dropped = _listwise(table, used)
     if not kept.any():
@@ -241,6 +246,10 @@ def start(table: Table, text: str) -> Start:
         raise _evaluation_error(text, e, [str(c) for c in table.columns]) from None
     rhs = getattr(mm, "rhs", mm)
     lhs = getattr(mm, "lhs", None)
+    if not hasattr(rhs, "model_spec") or (lhs is not None and not hasattr(lhs, "columns")):
+        raise InputError("the formula has several parts (|); a design is one matrix",
+                         _where(text.find("|") + 1 if "|" in text else None),
+                         "Write one right-hand side, such as y ~ a + b + c")
     index = table.frame.index[kept]
     names = [str(c) for c in rhs.columns]
     cols: dict[str, np.ndarray] = {}

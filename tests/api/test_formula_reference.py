@@ -98,6 +98,7 @@ def test_exact_dependency_is_named_in_the_formulas_names():
     ("y ~ u ++", ["formula, character 7", "cannot be read"]),
     ("y ~ frobnicate(u)", ['formula, character 5: the formula calls "frobnicate"']),
     ("y + u ~ v", ["left side of the formula makes 2 columns"]),
+    ("y ~ u | v", ["formula, character 7: the formula has several parts"]),
     ("", ["the formula is empty"]),
 ])
 def test_bad_formulas_get_a_clear_message(formula, expected, tmp_path):
@@ -130,3 +131,13 @@ def test_missing_rows_are_counted_as_the_recipe_counts_them():
     got = app.inspect(frame, formula="y ~ u + v").design
     assert got.dropped_by == {"v": 9, "y": int((frame["y"].isna() & frame["v"].notna()).sum())}
     assert pd.isna(frame["v"]).sum() == 9
+
+
+def test_dot_stands_for_every_other_column():
+    frame = planted()
+    frame["day"] = pd.Timestamp("2024-01-01") + pd.to_timedelta(range(len(frame)), "D")
+    dot = app.inspect(frame, formula="y ~ . - w")
+    named = app.inspect(frame.drop(columns="day"), formula="y ~ u + v + z + g")
+    # Dates are not numbers, so `.` leaves them out, as the recipe does.
+    assert dot.columns == named.columns
+    np.testing.assert_array_equal(dot.design.X, named.design.X)
