@@ -7,7 +7,6 @@ The same app, store and limits as `rankscope serve`; nothing computed here.
 from __future__ import annotations
 
 import atexit
-import io
 import os
 import socket
 import threading
@@ -17,8 +16,6 @@ from dataclasses import dataclass
 from typing import Any
 
 import pandas as pd
-import pyarrow as pa
-import pyarrow.parquet as pq
 
 from app.api.inputs import as_table
 from app.api.models import fitted_design, model_of
@@ -133,13 +130,6 @@ def _starting_point(data: Any, response: str | None, formula: str | None, recipe
     return table, [*first, *extra], table.source
 
 
-def _parquet(table: Table) -> bytes:
-    # The session keeps file bytes and reads them back: Parquet keeps the kinds exactly.
-    out = io.BytesIO()
-    pq.write_table(pa.Table.from_pandas(table.frame, preserve_index=False), out)
-    return out.getvalue()
-
-
 def serve(data: Any, response: str | None = None, *, formula: str | None = None,
           recipe: Any = None, name: str | None = None, port: int | None = None,
           data_dir: str | os.PathLike | None = None, limits: Any = None,
@@ -171,26 +161,17 @@ def serve(data: Any, response: str | None = None, *, formula: str | None = None,
         The session's address on http://127.0.0.1, with its edit key.
     """
     global _running
-    from app.tables.read import read_bytes
+    from app.web.formulas import start_session
     from app.web.limits import Limits
     from app.web.links import link
-    from app.web.state import Change
 
     table, steps, source = _starting_point(data, response, formula, recipe)
     limits = limits or Limits()
-    filename = f"{name or 'notebook'}.parquet"
-    content = _parquet(table)
-    # Read back from the bytes the session keeps, under the server's limits, so the session
-    # and a later reload see the same table.
-    stored = read_bytes(content, filename, name=name or source, **limits.reading())
     with _lock:
         if _running is None or not _running.thread.is_alive():
             _running = _start(port, data_dir, limits)
         running = _running
-    bench = running.app.state.bench
-    session, made = bench.start(content, name or source, stored)
-    for step in steps:
-        bench.apply(made.session_id, Change("step", step))
+    _, made = start_session(running.app.state.bench, table, steps, name or source, limits)
     url = link(running.base, made.session_id, made.edit_token)
     if open_browser:
         webbrowser.open(url)
