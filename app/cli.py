@@ -261,6 +261,10 @@ def read(args: argparse.Namespace):
 
 def run_check(args: argparse.Namespace) -> int:
     if getattr(args, "stream", False):
+        if getattr(args, "formula", None) is not None:
+            raise InputError("--stream reads the file's columns block by block; a formula "
+                             "needs the whole table", "--formula",
+                             "Leave out --stream, or use --response with recipe steps")
         from app.scale.stream import stream_check
 
         return stream_check(args)

@@ -29,7 +29,16 @@ class Inspection:
     """The diagnosis of one design, as returned by `inspect`.
 
     Every field of the `Diagnosis` (rank, dependencies, vif, gvif, fit, …) reads as an
-    attribute; `design` is the Design that was diagnosed.
+    attribute. In a notebook it shows as the HTML report; ``repr`` is a short summary.
+
+    Attributes
+    ----------
+    diagnosis : app.core.diagnosis.Diagnosis
+        The results, as plain types.
+    design : app.design.design.Design
+        The design that was diagnosed (X, columns, y, groups, rows used).
+    source : str
+        Where the data came from.
     """
 
     def __init__(self, diagnosis: Diagnosis, design: Design, *, source: str,
@@ -55,22 +64,47 @@ class Inspection:
     # ------------------------------------------------------------ the contract
 
     def to_dict(self) -> dict:
-        """The JSON document of `rankscope check --json` (docs/diagnosis.schema.json) as plain
-        types: the Diagnosis' fields plus source, design, cautions and (empty) checks."""
+        """The diagnosis as the JSON contract.
+
+        Returns
+        -------
+        dict
+            The document of ``rankscope check --json`` (docs/diagnosis.schema.json) in plain
+            types: the Diagnosis' fields plus source, design, cautions and (empty) checks;
+            infinite or undefined numbers are None.
+        """
         from app.report.document import check_document
 
         return check_document(self.diagnosis.to_dict(), self.design, self.source,
                               self.table_notes, [])
 
     def to_json(self, indent: int | None = 2) -> str:
-        """`to_dict()` as JSON text (infinite or undefined numbers are null)."""
+        """The diagnosis as JSON text.
+
+        Parameters
+        ----------
+        indent : int or None
+            Indentation of the JSON text (None: one line).
+
+        Returns
+        -------
+        str
+            ``to_dict()`` as JSON; infinite or undefined numbers are null.
+        """
         return json.dumps(self.to_dict(), allow_nan=False, indent=indent)
 
     # ------------------------------------------------------------ tables
 
     def vif_frame(self) -> pd.DataFrame:
-        """One row per design column: VIF (∞ in an exact dependency, NaN where it has none),
-        tolerance (1/VIF) and why a column has no VIF."""
+        """The variance inflation factors.
+
+        Returns
+        -------
+        pandas.DataFrame
+            Indexed by design column: ``vif`` (∞ in an exact dependency, NaN where the
+            column has none, such as the constant), ``tolerance`` (1/VIF) and ``note``
+            (why a column has no VIF).
+        """
         d = self.diagnosis
         rows = []
         for c in d.columns:
@@ -83,16 +117,29 @@ class Inspection:
                             ).set_index("column")
 
     def gvif_frame(self) -> pd.DataFrame:
-        """One row per group (categorical column or formula term): its columns, degrees of
-        freedom, GVIF and GVIF^(1/(2·df)); ∞ when a member is in an exact dependency."""
+        """The generalized variance inflation factors of the groups.
+
+        Returns
+        -------
+        pandas.DataFrame
+            Indexed by group (a formula term or a categorical column): ``columns``, ``df``,
+            ``gvif`` and ``gvif_scaled`` = GVIF^(1/(2·df)); ∞ when a member is in an exact
+            dependency.
+        """
         rows = [(g, ", ".join(v["columns"]), v["df"], _inf(v["gvif"]),
                  _inf(v["gvif_scaled"])) for g, v in self.diagnosis.gvif.items()]
         return pd.DataFrame(rows, columns=["group", "columns", "df", "gvif", "gvif_scaled"]
                             ).set_index("group")
 
     def index_frame(self) -> pd.DataFrame:
-        """One row per dimension: condition index (∞ for an exact dependency), whether it is
-        exact, and each column's variance-decomposition proportion."""
+        """The condition indices with the variance-decomposition proportions.
+
+        Returns
+        -------
+        pandas.DataFrame
+            One row per dimension: ``condition_index`` (∞ for an exact dependency),
+            ``exact``, then one column per design column holding its proportion.
+        """
         d = self.diagnosis
         frame = pd.DataFrame(d.variance_proportions, columns=d.columns)
         frame.insert(0, "exact", d.index_exact)
@@ -101,16 +148,29 @@ class Inspection:
         return frame
 
     def dependencies_frame(self) -> pd.DataFrame:
-        """One row per exact dependency: the dependent column, its equation in the design's
-        names, the coefficients and the residual."""
+        """The exact linear dependencies.
+
+        Returns
+        -------
+        pandas.DataFrame
+            One row per dependency: ``column`` (the dependent one), ``equation`` in the
+            design's names, ``combination`` (coefficient per column), ``residual`` and
+            ``verified`` (whether it holds on the rows).
+        """
         rows = [(r["column"], r["equation"], dict(r["combination"]), r["residual"],
                  r.get("verified")) for r in self.diagnosis.dependencies]
         return pd.DataFrame(rows, columns=["column", "equation", "combination", "residual",
                                            "verified"])
 
     def fit_frame(self) -> pd.DataFrame:
-        """One row per design column: coefficient, standard error, t and p (NaN for a
-        column aliased by an exact dependency). Empty without a response."""
+        """The least-squares fit.
+
+        Returns
+        -------
+        pandas.DataFrame
+            Indexed by design column: ``coefficient``, ``std_error``, ``t`` and ``p`` (NaN
+            for a column aliased by an exact dependency); empty without a response.
+        """
         fit = self.diagnosis.fit
         if fit is None:
             return pd.DataFrame(columns=["coefficient", "std_error", "t", "p"])

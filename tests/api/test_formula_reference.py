@@ -141,3 +141,8 @@ def test_dot_stands_for_every_other_column():
     # Dates are not numbers, so `.` leaves them out, as the recipe does.
     assert dot.columns == named.columns
     np.testing.assert_array_equal(dot.design.X, named.design.X)
+
+
+def test_stream_and_formula_do_not_mix(tmp_path):
+    got = run("check", str(write_csv(planted(), tmp_path)), "--formula", "y ~ u", "--stream")
+    assert got.code == 2 and "--stream" in got.err and "Traceback" not in got.err
