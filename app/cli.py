@@ -278,6 +278,7 @@ def run_check(args: argparse.Namespace) -> int:
         check_names(args, table.columns)
     from app.core.diagnosis import diagnose
     from app.design.recipe import Recipe, build_design
+
     steps = recipe_steps(args, dict(table.kinds) if args.formula is None else {})
     try:
         if args.formula is not None:
