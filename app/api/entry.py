@@ -12,7 +12,7 @@ from typing import Any
 
 import numpy as np
 
-from app.api.inputs import as_table
+from app.api.inputs import as_table, is_table_like
 from app.api.models import fitted_design, model_of
 from app.api.result import Inspection
 from app.design.design import Design
@@ -142,7 +142,8 @@ def inspect(
     if tol is not None and not (isinstance(tol, int | float) and math.isfinite(tol)
                                 and tol > 0):
         raise InputError(f"the tolerance must be a positive number, not {tol!r}", "tol")
-    model = model_of(data) if not isinstance(data, str | os.PathLike) else None
+    # Tables are never taken for models, whatever their columns are called.
+    model = None if is_table_like(data) else model_of(data)
     if model is not None:
         if formula is not None or recipe is not None or weights is not None or names:
             raise InputError("a fitted model brings its own design, response and weights",

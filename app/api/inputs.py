@@ -63,6 +63,12 @@ def is_polars(data: Any) -> bool:
     return type(data).__module__.split(".")[0] == "polars" and hasattr(data, "to_arrow")
 
 
+def is_table_like(data: Any) -> bool:
+    """True for what as_table reads (a table, an array or a path), never a fitted model."""
+    return isinstance(data, Table | str | os.PathLike | pd.DataFrame | pa.Table | np.ndarray) \
+        or is_polars(data)
+
+
 def as_table(data: Any, names: Sequence[str] | None = None) -> Table:
     """A Table from a DataFrame, a pyarrow Table, a polars DataFrame, a 2-D NumPy array
     with names, or a path to a CSV/TSV, Excel or Parquet file. Raises InputError."""

@@ -17,7 +17,7 @@ from typing import Any
 
 import pandas as pd
 
-from app.api.inputs import as_table
+from app.api.inputs import as_table, is_table_like
 from app.api.models import fitted_design, model_of
 from app.api.result import Inspection
 from app.design.design import INTERCEPT, Design
@@ -115,7 +115,7 @@ def _starting_point(data: Any, response: str | None, formula: str | None, recipe
     if isinstance(data, Inspection):
         table, steps = _design_table(data.design)
         return table, steps, data.source
-    if model_of(data) is not None and not isinstance(data, str | os.PathLike):
+    if not is_table_like(data) and model_of(data) is not None:
         fitted = fitted_design(data)
         table, steps = _design_table(fitted.design)
         return table, steps, fitted.source

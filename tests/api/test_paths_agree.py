@@ -120,3 +120,10 @@ def test_document_follows_the_schema():
     doc = json.loads(app.inspect(planted(), formula="y ~ u + v + w + C(g) + u:g").to_json())
     errors = sorted(Draft202012Validator(schema).iter_errors(doc), key=str)
     assert not errors, errors[0]
+
+
+def test_a_table_with_model_like_column_names_is_a_table():
+    frame = planted().rename(columns={"u": "exog", "v": "endog", "z": "model"})
+    frame["exog_names"] = 1.0
+    got = app.inspect(frame, "y")
+    assert "exog" in got.columns and got.source == "DataFrame"
