@@ -17,7 +17,10 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Any, NoReturn
 
+from app.report.document import json_ready
 from app.tables.errors import InputError
+
+__all__ = ["json_ready", "main"]  # json_ready: the streamed check writes with it too
 
 EXIT_OK = 0
 EXIT_CROSSED = 1
@@ -220,6 +223,21 @@ def check_names(args: argparse.Namespace, columns: list[str]) -> None:
                              suggestion(name, columns))
 
 
+def check_formula_options(args: argparse.Namespace) -> None:
+    """With --formula the formula names the response; --response may only repeat it."""
+    lhs, tilde, _ = args.formula.partition("~")
+    if args.response and (not tilde or lhs.strip().strip("`") != args.response):
+        raise InputError("--formula names the response left of ~", "--response",
+                         f"Write the formula as '{args.response} ~ ...' and leave out "
+                         "--response")
+    if args.all_levels:
+        raise InputError("--all-levels codes the table's categorical columns; with --formula "
+                         "the formula codes them", "--all-levels",
+                         "Write C(column) or leave out the intercept (0 + C(column)) in the "
+                         "formula")
+    args.response = None  # the formula's own response step sets it
+
+
 def read(args: argparse.Namespace):
     """The table, with reading failures turned into InputError."""
     from app.tables.read import read_table
@@ -241,26 +259,12 @@ def read(args: argparse.Namespace):
                          "Check that it is a CSV, TSV, Excel or Parquet file") from e
 
 
-def json_ready(obj: Any) -> Any:
-    """Plain JSON types; a non-finite float becomes null (the contract's 'infinite or
-    undefined'), numpy scalars become Python numbers."""
-    if isinstance(obj, dict):
-        return {str(k): json_ready(v) for k, v in obj.items()}
-    if isinstance(obj, list | tuple):
-        return [json_ready(v) for v in obj]
-    if isinstance(obj, bool) or obj is None or isinstance(obj, str):
-        return obj
-    if isinstance(obj, int):
-        return obj
-    if hasattr(obj, "item"):  # numpy scalar
-        return json_ready(obj.item())
-    if isinstance(obj, float):
-        return obj if math.isfinite(obj) else None
-    return obj
-
-
 def run_check(args: argparse.Namespace) -> int:
     if getattr(args, "stream", False):
+        if getattr(args, "formula", None) is not None:
+            raise InputError("--stream reads the file's columns block by block; a formula "
+                             "needs the whole table", "--formula",
+                             "Leave out --stream, or use --response with recipe steps")
         from app.scale.stream import stream_check
 
         return stream_check(args)
@@ -268,17 +272,23 @@ def run_check(args: argparse.Namespace) -> int:
     if args.tol is not None and not (math.isfinite(args.tol) and args.tol > 0):
         raise InputError(f"the tolerance must be a positive number, not {args.tol}", "--tol")
     table = read(args)
-    if not args.recipe:
+    if args.formula is not None:
+        check_formula_options(args)
+    elif not args.recipe:
         check_names(args, table.columns)
     from app.core.diagnosis import diagnose_factor
     from app.core.factor import factorize
     from app.design.recipe import Recipe, build_design
-    from app.report.cautions import choose_cautions
     from app.report.remedies import remedies_of
 
-    steps = recipe_steps(args, dict(table.kinds))
+    steps = recipe_steps(args, dict(table.kinds) if args.formula is None else {})
     try:
-        design = build_design(table, Recipe(steps.steps))
+        if args.formula is not None:
+            from app.design.formula import formula_design
+
+            design = formula_design(table, args.formula, steps.steps)
+        else:
+            design = build_design(table, Recipe(steps.steps))
     except InputError as e:
         raise steps.relabel(e) from e
     for name in args.keep:
@@ -295,22 +305,11 @@ def run_check(args: argparse.Namespace) -> int:
     diagnosis["remedies"] = remedies_of(found, F, design, steps.steps, keep, args.tol)
     checks = evaluate(rules, diagnosis)
     if args.json:
-        doc = dict(diagnosis)
-        doc["source"] = table.source
-        doc["design"] = {
-            "rows_total": design.rows_total,
-            "rows_used": design.rows_used,
-            "rows_dropped": design.rows_total - design.rows_used,
-            "dropped_by": dict(design.dropped_by),
-            "response": design.response,
-            "intercept": design.intercept,
-            "groups": {g: list(c) for g, c in design.groups.items()},
-            "notes": list(design.notes) + list(table.notes),
-        }
-        doc["cautions"] = [c.to_dict() for c in choose_cautions(diagnosis)]
-        doc["checks"] = checks
+        from app.report.document import check_document
+
+        doc = check_document(diagnosis, design, table.source, table.notes, checks)
         # ASCII-only JSON (\u escapes) survives any terminal encoding unchanged.
-        sys.stdout.write(json.dumps(json_ready(doc), allow_nan=False, indent=2) + "\n")
+        sys.stdout.write(json.dumps(doc, allow_nan=False, indent=2) + "\n")
     else:
         from app.report.text import render_text
 
@@ -402,6 +401,10 @@ def build_parser() -> Parser:
         epilog=CHECK_HELP, formatter_class=argparse.RawDescriptionHelpFormatter)
     check.add_argument("file", metavar="FILE", help="CSV, TSV, Excel or Parquet file")
     check.add_argument("--response", metavar="COL", help="the response column (y)")
+    check.add_argument("--formula", metavar="FORMULA",
+                       help="build the design from a formula such as 'y ~ a + C(g) + a:b' "
+                            "(see docs/python-api.md); the options below then act on its "
+                            "columns")
     check.add_argument("--drop", metavar="COL", action="append", default=[],
                        help="leave a column out of the predictors (repeatable)")
     check.add_argument("--categorical", metavar="COL", action="append", default=[],

@@ -208,6 +208,29 @@
     }
   }
 
+  // A formula opens a new session on its columns; the page then moves there.
+  async function startFromFormula(text) {
+    if (busy) return;
+    busy = true;
+    clearNotice();
+    document.body.classList.add("working");
+    try {
+      const response = await fetch("/api/s/" + sessionId() + "/formula", {
+        method: "POST",
+        headers: { "Content-Type": "application/json", Accept: "application/json" },
+        body: JSON.stringify({ formula: text }),
+      });
+      const data = await readJson(response);
+      if (response.ok && data.url) { window.location.assign(data.url); return; }
+      notify(data.error || "The formula could not be used.");
+    } catch (e) {
+      notify("The server could not be reached: " + e.message);
+    } finally {
+      busy = false;
+      document.body.classList.remove("working");
+    }
+  }
+
   async function importRecipe(input) {
     if (busy || !input.files.length) return;
     busy = true;
@@ -470,6 +493,11 @@
     if (form.dataset.renameForm) {
       e.preventDefault();
       renameSession(form);
+      return;
+    }
+    if (form.id === "formula-form") {
+      e.preventDefault();
+      startFromFormula(form.elements.namedItem("formula").value);
       return;
     }
     if (form.id === "pin-form") {

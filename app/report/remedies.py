@@ -223,11 +223,25 @@ def _centering_verdict(before: dict, after: dict, d: Diagnosis,
             f"{show(before['centered'])} → {show(after['centered'])})")
 
 
+def categorical_groups(groups: dict[str, list[str]], references: dict[str, str]
+                       ) -> dict[str, list[str]]:
+    """The groups that are a categorical's indicator columns as the recipe codes them
+    (name[level]), which an indicators step can recode; a formula's terms are groups for
+    GVIF only (their columns are dropped like any other)."""
+    def coded(g: str, cols: list[str]) -> bool:
+        return g in references or (len(cols) > 1 and all(
+            c.startswith(f"{g}[") and c.endswith("]") and not c.startswith(f"{g}[T.")
+            for c in cols))
+
+    return {g: cols for g, cols in groups.items() if coded(g, cols)}
+
+
 def remedies_of(d: Diagnosis, F: Factorization, design: Any, steps: list[dict[str, Any]],
                 keep: list[str] | None, tol: float | None) -> list[dict]:
     """The previewed remedies of a design built by a recipe (app.design.Design)."""
-    indicator = {c for cols in design.groups.values() for c in cols}
+    coded = categorical_groups(design.groups, design.references)
+    indicator = {c for cols in coded.values() for c in cols}
     predictors = {c for c in design.columns if c not in indicator and c != CONSTANT}
-    cands = candidates(d, F, groups=design.groups, references=design.references,
+    cands = candidates(d, F, groups=coded, references=design.references,
                        predictors=predictors, steps=steps)
     return previewed(d, F, cands, keep=keep, tol=tol)

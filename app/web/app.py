@@ -19,7 +19,7 @@ from starlette.exceptions import HTTPException as StarletteHTTPException
 
 from app.store import SessionNotFound, Store
 from app.tables.errors import InputError
-from app.web import api, assets, downloads, insight_routes, pages, sessions
+from app.web import api, assets, downloads, formulas, insight_routes, pages, sessions
 from app.web.access import AccessGate
 from app.web.bodies import safe_text
 from app.web.bodysize import BodyLimit
@@ -114,6 +114,7 @@ def create_app(store: Store | None = None, *, share: bool = False,
     app.include_router(api.router)
     app.include_router(insight_routes.router)
     app.include_router(sessions.router)
+    app.include_router(formulas.router)
     app.include_router(downloads.router)
 
     @app.exception_handler(InputError)
