@@ -1,6 +1,6 @@
 """rankscope: inspect the design matrix of a linear model.
 
-Layers (data flows one way): tables -> design -> core -> report/web/cli.
+Imports run one way, the allowed directions listed once in DEVELOPERS.md (Architecture map).
 """
 
 __version__ = "0.1.0"

@@ -9,19 +9,22 @@ import argparse
 import io
 import json
 import math
-import operator
 import re
 import sys
-from collections.abc import Callable
 from dataclasses import dataclass
 from pathlib import Path
-from typing import Any, NoReturn
+from typing import Any, NoReturn, TextIO
 
+from app.report.checks import (
+    EXIT_BAD_INPUT,
+    EXIT_CROSSED,
+    EXIT_OK,
+    check_document,
+    evaluate,
+    json_ready,
+    parse_rule,
+)
 from app.tables.errors import InputError
-
-EXIT_OK = 0
-EXIT_CROSSED = 1
-EXIT_BAD_INPUT = 2
 
 CHECK_HELP = """\
 --fail-if rules (repeatable; exit code 1 when any is crossed, each crossing named on stderr):
@@ -39,103 +42,6 @@ class Parser(argparse.ArgumentParser):
 
     def error(self, message: str) -> NoReturn:
         raise InputError(message, "", f"See {self.prog} --help")
-
-
-# ---------------------------------------------------------------- --fail-if rules
-
-
-@dataclass(frozen=True)
-class Rule:
-    """One --fail-if rule: a metric compared with a limit (None for 'deficient')."""
-
-    text: str
-    metric: str
-    limit: float | None
-    inclusive: bool
-
-    def crossed(self, value: float) -> bool:
-        if self.limit is None:
-            return bool(value)
-        return (operator.ge if self.inclusive else operator.gt)(value, self.limit)
-
-
-def _largest_vif(d: dict) -> tuple[float, str]:
-    vif = d["vif"]
-    if not vif:
-        return 0.0, "no VIF (fewer than two predictors)"
-    vals = {c: (math.inf if v is None else v) for c, v in vif.items()}
-    top = max(vals.values())
-    cols = [c for c, v in vals.items() if v == top]
-    return top, f"largest VIF {_show(top)} ({', '.join(cols[:4])}{', …' if len(cols) > 4 else ''})"
-
-
-def _largest_index(d: dict) -> tuple[float, str]:
-    if any(d["index_exact"]):
-        return math.inf, "an exact dependency (condition index ∞)"
-    vals = [math.inf if v is None else v for v in d["condition_indices"]]
-    top = max(vals, default=0.0)
-    return top, f"largest condition index {_show(top)}"
-
-
-def _cond(d: dict) -> tuple[float, str]:
-    v = d["condition_number"]["equilibrated"]
-    v = math.inf if v is None else v
-    return v, f"condition number of the unit-length columns {_show(v)}"
-
-
-def _deficient(d: dict) -> tuple[float, str]:
-    p = len(d["columns"])
-    return float(not d["full_rank"]), f"rank {d['rank']} of {p} columns"
-
-
-METRICS: dict[str, Callable[[dict], tuple[float, str]]] = {
-    "vif": _largest_vif,
-    "index": _largest_index,
-    "cond": _cond,
-    "deficient": _deficient,
-}
-
-
-def _show(x: float) -> str:
-    return "∞" if math.isinf(x) else f"{x:.4g}"
-
-
-def parse_rule(text: str) -> Rule:
-    """'vif>10', 'index>=30', 'cond>1e6' or 'deficient'."""
-    t = text.strip().lower().replace(" ", "")
-    if t == "deficient":
-        return Rule(text, "deficient", None, False)
-    sign = ">=" if ">=" in t else ">"
-    name, _, limit = t.partition(sign)
-    inclusive = sign == ">="
-    if name not in METRICS or name == "deficient" or not limit:
-        raise InputError(
-            f"cannot read the rule {text!r}", "--fail-if",
-            "Write vif>N, index>N, cond>N or deficient (for example --fail-if 'vif>10')")
-    try:
-        value = float(limit)
-    except ValueError:
-        value = math.nan
-    if not math.isfinite(value):
-        raise InputError(f"the limit in {text!r} is not a finite number", "--fail-if",
-                         "Write a number after the sign, for example vif>10")
-    return Rule(text, name, value, inclusive)
-
-
-def evaluate(rules: list[Rule], d: dict) -> list[dict]:
-    """Each rule with its measured value (null when infinite) and whether it is crossed."""
-    out = []
-    for r in rules:
-        value, detail = METRICS[r.metric](d)
-        out.append({
-            "rule": r.text,
-            "metric": r.metric,
-            "limit": r.limit,
-            "value": value if math.isfinite(value) else None,
-            "crossed": r.crossed(value),
-            "detail": detail,
-        })
-    return out
 
 
 # ---------------------------------------------------------------- check
@@ -241,80 +147,102 @@ def read(args: argparse.Namespace):
                          "Check that it is a CSV, TSV, Excel or Parquet file") from e
 
 
-def json_ready(obj: Any) -> Any:
-    """Plain JSON types; a non-finite float becomes null (the contract's 'infinite or
-    undefined'), numpy scalars become Python numbers."""
-    if isinstance(obj, dict):
-        return {str(k): json_ready(v) for k, v in obj.items()}
-    if isinstance(obj, list | tuple):
-        return [json_ready(v) for v in obj]
-    if isinstance(obj, bool) or obj is None or isinstance(obj, str):
-        return obj
-    if isinstance(obj, int):
-        return obj
-    if hasattr(obj, "item"):  # numpy scalar
-        return json_ready(obj.item())
-    if isinstance(obj, float):
-        return obj if math.isfinite(obj) else None
-    return obj
+def _checked_options(args: argparse.Namespace) -> list:
+    """The --fail-if rules, after refusing a senseless --tol (both before any reading)."""
+    rules = [parse_rule(t) for t in args.fail_if]
+    if args.tol is not None and not (math.isfinite(args.tol) and args.tol > 0):
+        raise InputError(f"the tolerance must be a positive number, not {args.tol}", "--tol")
+    return rules
+
+
+def _check_keep(args: argparse.Namespace, columns: list[str]) -> None:
+    from app.design.names import quoted, suggestion
+
+    for name in args.keep:
+        if name not in columns:
+            raise InputError(f"the design has no column named {quoted(name)}", "--keep",
+                             suggestion(name, columns))
+
+
+def _write_check(args: argparse.Namespace, rules: list, diagnosis: dict, design: Any,
+                 source: str, notes: list[str], out: TextIO, err: TextIO,
+                 extra: dict[str, Any] | None = None) -> int:
+    """The report (text, or JSON with `extra` fields last), each crossed rule on err, and the
+    exit code."""
+    checks = evaluate(rules, diagnosis)
+    if args.json:
+        doc = check_document(diagnosis, design, source, notes, checks)
+        doc.update(extra or {})
+        # ASCII-only JSON (\u escapes) survives any terminal encoding unchanged.
+        out.write(json.dumps(json_ready(doc), allow_nan=False, indent=2) + "\n")
+    else:
+        from app.report.text import render_text
+
+        out.write(render_text(diagnosis, design, source=source, notes=notes))
+    crossed = [c for c in checks if c["crossed"]]
+    for c in crossed:
+        print(f"rankscope: --fail-if {c['rule']} crossed: {c['detail']}", file=err)
+    return EXIT_CROSSED if crossed else EXIT_OK
 
 
 def run_check(args: argparse.Namespace) -> int:
     if getattr(args, "stream", False):
-        from app.scale.stream import stream_check
-
         return stream_check(args)
-    rules = [parse_rule(t) for t in args.fail_if]
-    if args.tol is not None and not (math.isfinite(args.tol) and args.tol > 0):
-        raise InputError(f"the tolerance must be a positive number, not {args.tol}", "--tol")
+    rules = _checked_options(args)
     table = read(args)
     if not args.recipe:
         check_names(args, table.columns)
     from app.core.diagnosis import diagnose
     from app.design.recipe import Recipe, build_design
-    from app.report.cautions import choose_cautions
 
     steps = recipe_steps(args, dict(table.kinds))
     try:
         design = build_design(table, Recipe(steps.steps))
     except InputError as e:
         raise steps.relabel(e) from e
-    for name in args.keep:
-        if name not in design.columns:
-            from app.design.names import quoted, suggestion
-
-            raise InputError(f"the design has no column named {quoted(name)}", "--keep",
-                             suggestion(name, design.columns))
+    _check_keep(args, design.columns)
     diagnosis = diagnose(
         design.X, design.columns, design.y, response=design.response, groups=design.groups,
         keep=list(args.keep) or None, tol=args.tol,
     ).to_dict()
-    checks = evaluate(rules, diagnosis)
-    if args.json:
-        doc = dict(diagnosis)
-        doc["source"] = table.source
-        doc["design"] = {
-            "rows_total": design.rows_total,
-            "rows_used": design.rows_used,
-            "rows_dropped": design.rows_total - design.rows_used,
-            "dropped_by": dict(design.dropped_by),
-            "response": design.response,
-            "intercept": design.intercept,
-            "groups": {g: list(c) for g, c in design.groups.items()},
-            "notes": list(design.notes) + list(table.notes),
-        }
-        doc["cautions"] = [c.to_dict() for c in choose_cautions(diagnosis)]
-        doc["checks"] = checks
-        # ASCII-only JSON (\u escapes) survives any terminal encoding unchanged.
-        sys.stdout.write(json.dumps(json_ready(doc), allow_nan=False, indent=2) + "\n")
-    else:
-        from app.report.text import render_text
+    return _write_check(args, rules, diagnosis, design, table.source, table.notes,
+                        sys.stdout, sys.stderr)
 
-        sys.stdout.write(render_text(diagnosis, design, source=table.source, notes=table.notes))
-    crossed = [c for c in checks if c["crossed"]]
-    for c in crossed:
-        print(f"rankscope: --fail-if {c['rule']} crossed: {c['detail']}", file=sys.stderr)
-    return EXIT_CROSSED if crossed else EXIT_OK
+
+def stream_check(args: argparse.Namespace, *, out: TextIO | None = None,
+                 err: TextIO | None = None) -> int:
+    """`rankscope check FILE --stream`: run_check's output and exit codes, the file read block
+    by block with a progress bar on stderr."""
+    from app.core.diagnosis import diagnose_factor
+    from app.design.recipe import Recipe
+    from app.scale.stream import stream_source
+    from app.scale.stream_bar import ProgressBar
+    from app.scale.stream_source import open_source
+
+    out = out or sys.stdout
+    err = err or sys.stderr
+    rules = _checked_options(args)
+    if getattr(args, "sheet", None):
+        raise InputError("--stream reads CSV/TSV and Parquet files, which have no sheets",
+                         "--sheet", "Leave out --sheet, or leave out --stream for a workbook")
+    source = open_source(args.file)
+    if not args.recipe:
+        check_names(args, source.columns)
+    steps = recipe_steps(args, dict(source.kinds))
+    bar = ProgressBar(err)
+    try:
+        F, info = stream_source(source, Recipe(steps.steps), progress=bar)
+    except InputError as e:
+        raise steps.relabel(e) from e
+    finally:
+        bar.close()
+    _check_keep(args, info.columns)
+    diagnosis = diagnose_factor(F, response=info.response, groups=info.groups,
+                                keep=list(args.keep) or None, tol=args.tol).to_dict()
+    stream = {"passes": info.passes, "blocks": info.blocks, "bytes": info.bytes_total,
+              "seconds": round(info.seconds, 3)}
+    return _write_check(args, rules, diagnosis, info.design(), info.source, info.table_notes,
+                        out, err, {"stream": stream})
 
 
 def serve_limits(args: argparse.Namespace) -> Any:
