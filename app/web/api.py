@@ -1,6 +1,6 @@
 """JSON routes: upload, versioned changes to the design, undo and redo, pinned fits, raw results.
 
-Each route hands work to the Workbench and returns its result; no linear algebra here.
+Each route hands work to the Analyst and returns its result; no linear algebra here.
 """
 
 from __future__ import annotations
@@ -18,6 +18,7 @@ from app.store import Applied, Conflict, SessionNotFound
 from app.tables.errors import InputError
 from app.tables.read import read_bytes
 from app.web.access import COOKIE_SECONDS, can_edit, cookie_name
+from app.web.analyst import Analyst, UnknownSession, settings_of
 from app.web.bodies import safe_text, sound_text
 from app.web.budget import AnalysisTooSlow
 from app.web.limits import Limits
@@ -25,7 +26,6 @@ from app.web.live import Hub
 from app.web.render import current_html
 from app.web.state import CHANGE_KINDS, Change, Session
 from app.web.views import plain
-from app.web.workbench import UnknownSession, Workbench, settings_of
 
 # Every route is a plain `def`: FastAPI runs it in its thread pool, so a long refit never
 # blocks the event loop that serves other requests.
@@ -37,8 +37,8 @@ EXAMPLE = ('Send {"kind": "step", "payload": {"step": "drop", "column": "x"}, '
            '"base_version": 3, "change_id": "a-new-id"}')
 
 
-def bench_of(request: Request) -> Workbench:
-    return request.app.state.bench
+def analyst_of(request: Request) -> Analyst:
+    return request.app.state.analyst
 
 
 def live_of(request: Request) -> Hub:
@@ -47,7 +47,7 @@ def live_of(request: Request) -> Hub:
 
 def guarded(what: str, fn: Callable[..., T], *args: Any) -> T:
     """Run fn; a failure the readers, recipe or core did not word still becomes a message
-    (and the session is unchanged, as the Workbench stores only what succeeded)."""
+    (and the session is unchanged, as the Analyst stores only what succeeded)."""
     try:
         return fn(*args)
     except (InputError, UnknownSession, SessionNotFound, AnalysisTooSlow):
@@ -61,7 +61,7 @@ def guarded(what: str, fn: Callable[..., T], *args: Any) -> T:
 
 def state_of(request: Request, session: Session) -> dict[str, Any]:
     """What a page needs after a change: the fresh workspace and where the history is."""
-    bench = bench_of(request)
+    analyst = analyst_of(request)
     out: dict[str, Any] = {
         "version": session.version,
         "revision": session.revision,
@@ -69,9 +69,9 @@ def state_of(request: Request, session: Session) -> dict[str, Any]:
         "history_length": len(session.history),
     }
     if request.query_params.get("html") != "0":  # scripts may skip the page fragment
-        out["html"] = current_html(bench, session, can_edit(request))
+        out["html"] = current_html(analyst, session, can_edit(request))
     try:
-        analysis = bench.current(session)
+        analysis = analyst.current(session)
     except InputError:
         return out
     return {**out, "rank": analysis.diagnosis["rank"], "columns": analysis.columns,
@@ -83,7 +83,7 @@ def answer(request: Request, session_id: str, outcome: Applied | Conflict,
     """The reply to a versioned change: the session as it now is, and what became of the
     change. A Conflict is 409 (RFC 9110 §15.5.10) with its message: nothing was saved and
     the page shows the state that the change no longer fits."""
-    session = bench_of(request).session(session_id)
+    session = analyst_of(request).session(session_id)
     body = {**state_of(request, session), **extra}
     if isinstance(outcome, Conflict):
         return JSONResponse({**body, "error": outcome.message, "conflict": True},
@@ -117,7 +117,7 @@ def upload(request: Request, file: Annotated[UploadFile, File()]) -> JSONRespons
                          "or diagnose it with `rankscope check FILE --stream`")
     table = guarded(f"reading {quoted(name)}", lambda: read_bytes(data, name,
                                                                   **limits.reading()))
-    session, made = bench_of(request).start(data, name, table)
+    session, made = analyst_of(request).start(data, name, table)
     sid = session.session_id
     response = JSONResponse({"session": sid, "url": f"/s/{sid}", "rows": table.n_rows,
                              "columns": table.columns, "notes": table.notes}, status_code=201)
@@ -137,7 +137,7 @@ def add_change(request: Request, session_id: str,
         raise InputError("a change needs a kind (step, keep or ridge) and a payload object",
                          "request body", EXAMPLE)
     base, change_id = versioning(body)
-    outcome = guarded("this change", bench_of(request).apply, session_id,
+    outcome = guarded("this change", analyst_of(request).apply, session_id,
                       Change(body["kind"], body["payload"]), base, change_id)
     return answer(request, session_id, outcome)
 
@@ -146,7 +146,7 @@ def add_change(request: Request, session_id: str,
 def undo(request: Request, session_id: str, body: Annotated[Any, Body()] = None
          ) -> JSONResponse:
     base, change_id = versioning(body)
-    outcome = guarded("undo", bench_of(request).move, session_id, -1, base, change_id)
+    outcome = guarded("undo", analyst_of(request).move, session_id, -1, base, change_id)
     return answer(request, session_id, outcome)
 
 
@@ -154,7 +154,7 @@ def undo(request: Request, session_id: str, body: Annotated[Any, Body()] = None
 def redo(request: Request, session_id: str, body: Annotated[Any, Body()] = None
          ) -> JSONResponse:
     base, change_id = versioning(body)
-    outcome = guarded("redo", bench_of(request).move, session_id, 1, base, change_id)
+    outcome = guarded("redo", analyst_of(request).move, session_id, 1, base, change_id)
     return answer(request, session_id, outcome)
 
 
@@ -162,41 +162,41 @@ def redo(request: Request, session_id: str, body: Annotated[Any, Body()] = None
 def pin(request: Request, session_id: str, body: Annotated[Any, Body()] = None) -> JSONResponse:
     """Pin the current fit. Body (optional): {"label": "..."}."""
     label = sound_text(body).get("label") if isinstance(body, dict) else None
-    bench = bench_of(request)
-    pinned = guarded("pinning", bench.pin, session_id, str(label or ""))
+    analyst = analyst_of(request)
+    pinned = guarded("pinning", analyst.pin, session_id, str(label or ""))
     live_of(request).notify(session_id)
-    return JSONResponse({**state_of(request, bench.session(session_id)), "pin": pinned.pin_id},
+    return JSONResponse({**state_of(request, analyst.session(session_id)), "pin": pinned.pin_id},
                         status_code=201)
 
 
 @router.delete("/s/{session_id}/pins/{pin_id}")
 def unpin(request: Request, session_id: str, pin_id: int) -> JSONResponse:
-    bench = bench_of(request)
-    bench.unpin(session_id, pin_id)
+    analyst = analyst_of(request)
+    analyst.unpin(session_id, pin_id)
     live_of(request).notify(session_id)
-    return JSONResponse(state_of(request, bench.session(session_id)))
+    return JSONResponse(state_of(request, analyst.session(session_id)))
 
 
 @router.get("/s/{session_id}/diagnosis")
 def diagnosis(request: Request, session_id: str) -> JSONResponse:
     """The current Diagnosis as the core's plain JSON."""
-    bench = bench_of(request)
-    return JSONResponse(plain(bench.current(bench.session(session_id)).diagnosis))
+    analyst = analyst_of(request)
+    return JSONResponse(plain(analyst.current(analyst.session(session_id)).diagnosis))
 
 
 @router.get("/s/{session_id}/figures")
 def figures(request: Request, session_id: str) -> JSONResponse:
-    bench = bench_of(request)
-    return JSONResponse(plain(all_figures(bench.current(bench.session(session_id)).diagnosis)))
+    analyst = analyst_of(request)
+    return JSONResponse(plain(all_figures(analyst.current(analyst.session(session_id)).diagnosis)))
 
 
 @router.get("/s/{session_id}/spearman")
 def spearman_figure(request: Request, session_id: str) -> JSONResponse:
     """The Spearman heatmap of the current state; when the refit was made on the factor
     alone, the correlations are computed from the rows now, and the note says so."""
-    bench = bench_of(request)
-    session = bench.session(session_id)
-    diag, note = guarded("Spearman correlations", bench.spearman, session)
+    analyst = analyst_of(request)
+    session = analyst.session(session_id)
+    diag, note = guarded("Spearman correlations", analyst.spearman, session)
     return JSONResponse(plain({"figure": correlation_heatmap(diag, "spearman"), "note": note}))
 
 
@@ -204,7 +204,7 @@ def spearman_figure(request: Request, session_id: str) -> JSONResponse:
 def history(request: Request, session_id: str) -> JSONResponse:
     """The history with the undo pointer, the recipe the changes in force add up to, and
     every accepted change as saved (version, change id, base version)."""
-    session = bench_of(request).session(session_id)
+    session = analyst_of(request).session(session_id)
     settings = settings_of(session.in_force)  # no analysis needed to say what is in force
     return JSONResponse({
         "version": session.version,

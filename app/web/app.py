@@ -1,4 +1,4 @@
-"""The FastAPI application: wiring of the session store, the workbench, access, the live feed,
+"""The FastAPI application: wiring of the session store, the analyst, access, the live feed,
 the routes and the assets. Builds the app object only; serving lives in server.py.
 """
 
@@ -21,6 +21,7 @@ from app.store import SessionNotFound, Store
 from app.tables.errors import InputError
 from app.web import api, assets, downloads, pages, sessions
 from app.web.access import AccessGate
+from app.web.analyst import Analyst, UnknownSession
 from app.web.bodies import safe_text
 from app.web.bodysize import BodyLimit
 from app.web.budget import AnalysisTooSlow, Budget
@@ -30,7 +31,6 @@ from app.web.limits import Limits
 from app.web.live import Hub
 from app.web.render import STATIC, render
 from app.web.stored import StoredSessions
-from app.web.workbench import UnknownSession, Workbench
 
 GONE = ("There is no session at this address: it may have been deleted, or the link may be "
         "incomplete.")
@@ -68,7 +68,7 @@ def _throwaway_store(app: FastAPI) -> Store:
 
 def create_app(store: Store | None = None, *, share: bool = False,
                public_url: str | None = None,
-               bench: type[Workbench] = Workbench,
+               analyst: type[Analyst] = Analyst,
                allowed_hosts: Collection[str] | None = None,
                limits: Limits | None = None) -> FastAPI:
     """A new app on the given session store (default: a throwaway one).
@@ -78,7 +78,7 @@ def create_app(store: Store | None = None, *, share: bool = False,
     public_url: the address others reach this server by, used in share links (default:
     the address of the request asking for them).
     app.state.owner_key opens the start page and every session when sharing.
-    bench: the Workbench class (a ReducedBench when serving a dataset reduced on Dask).
+    analyst: the Analyst class (a ReducedAnalyst when serving a dataset reduced on Dask).
     allowed_hosts: the Host header values answered ("name:port", or "name" for any port);
     default: the loopback names and Starlette's "testserver" on any port, and public_url's
     address. server.run sets app.state.allowed_hosts from the address it serves on.
@@ -88,9 +88,9 @@ def create_app(store: Store | None = None, *, share: bool = False,
     app = FastAPI(title="rankscope", docs_url=None, redoc_url=None, openapi_url=None)
     db = store if store is not None else _throwaway_store(app)
     app.state.sessions = StoredSessions(db)
-    app.state.bench = bench(app.state.sessions)
+    app.state.analyst = analyst(app.state.sessions)
     app.state.limits = limits = limits or Limits()
-    app.state.bench.budget = Budget(limits.analysis_seconds, limits.workers)
+    app.state.analyst.budget = Budget(limits.analysis_seconds, limits.workers)
     app.state.live = Hub(app.state.sessions.stamp)
     app.state.share = share
     app.state.public_url = public_url

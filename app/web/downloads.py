@@ -10,7 +10,7 @@ from fastapi.responses import Response, StreamingResponse
 
 from app.tables.errors import InputError
 from app.web import exports
-from app.web.api import bench_of, guarded
+from app.web.api import analyst_of, guarded
 
 router = APIRouter(prefix="/api")
 
@@ -28,16 +28,16 @@ def download(request: Request, session_id: str, kind: str) -> Response:
     if kind not in exports.KINDS:
         raise InputError(f"there is no download called {kind!r}", "download",
                          "Use one of: " + ", ".join(exports.KINDS))
-    session = bench_of(request).session(session_id)
+    session = analyst_of(request).session(session_id)
     if kind in ("design", "script"):
-        bench_of(request).needs_rows(session, f"the {kind} download")
+        analyst_of(request).needs_rows(session, f"the {kind} download")
     headers = _attachment(exports.file_name(session, kind))
     media = exports.KINDS[kind][1]
     if kind == "design":
         pieces = guarded("the design CSV", exports.design, session)
         return StreamingResponse(pieces, media_type=media, headers=headers)
     if kind == "report":
-        text = guarded("the report", exports.report, bench_of(request), session)
+        text = guarded("the report", exports.report, analyst_of(request), session)
     elif kind == "recipe":
         text = exports.recipe(session)
     else:

@@ -15,8 +15,8 @@ from app.report.export import (
     recipe_script,
     render_html,
 )
+from app.web.analyst import Analyst, settings_of
 from app.web.state import Session
-from app.web.workbench import Workbench, settings_of
 
 #: The downloads a session offers: key -> (file name suffix, media type).
 KINDS = {
@@ -31,9 +31,9 @@ def file_name(session: Session, kind: str) -> str:
     return download_name(session.title or session.table.source, KINDS[kind][0])
 
 
-def report(bench: Workbench, session: Session) -> str:
+def report(analyst: Analyst, session: Session) -> str:
     """The self-contained report of the current state (plotly.js inlined)."""
-    analysis = bench.with_rows(session)
+    analysis = analyst.with_rows(session)
     return render_html(
         analysis.diagnosis, title=session.title or session.table.source,
         source=session.table.source, rows=(analysis.rows_used, analysis.rows_total),

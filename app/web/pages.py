@@ -11,15 +11,15 @@ from fastapi.responses import HTMLResponse
 from app.tables import sniff
 from app.tables.errors import InputError
 from app.web.access import can_edit, role_of
+from app.web.analyst import Analyst
 from app.web.overview import summarize
 from app.web.render import compare_context, current_html, render
-from app.web.workbench import Workbench
 
 router = APIRouter()
 
 
-def bench_of(request: Request) -> Workbench:
-    return request.app.state.bench
+def analyst_of(request: Request) -> Analyst:
+    return request.app.state.analyst
 
 
 def message_page(text: str, status: int) -> HTMLResponse:
@@ -42,11 +42,11 @@ def upload_page(request: Request) -> HTMLResponse:
 
 @router.get("/s/{session_id}", response_class=HTMLResponse)
 def overview_page(request: Request, session_id: str) -> HTMLResponse:
-    bench = bench_of(request)
-    session = bench.session(session_id)
+    analyst = analyst_of(request)
+    session = analyst.session(session_id)
     analysis, problem = None, None
     try:
-        analysis = bench.current(session)
+        analysis = analyst.current(session)
     except InputError as e:
         problem = e.message
     used_as = {w.name: w for w in analysis.working} if analysis else {}
@@ -57,21 +57,21 @@ def overview_page(request: Request, session_id: str) -> HTMLResponse:
 
 @router.get("/s/{session_id}/inspect", response_class=HTMLResponse)
 def inspect_page(request: Request, session_id: str) -> HTMLResponse:
-    bench = bench_of(request)
-    session = bench.session(session_id)
+    analyst = analyst_of(request)
+    session = analyst.session(session_id)
     return _page(request, "inspect.html", session=session,
-                 workspace=current_html(bench, session, can_edit(request)))
+                 workspace=current_html(analyst, session, can_edit(request)))
 
 
 @router.get("/s/{session_id}/workspace", response_class=HTMLResponse)
 def workspace_fragment(request: Request, session_id: str) -> HTMLResponse:
-    bench = bench_of(request)
-    return HTMLResponse(current_html(bench, bench.session(session_id), can_edit(request)))
+    analyst = analyst_of(request)
+    return HTMLResponse(current_html(analyst, analyst.session(session_id), can_edit(request)))
 
 
 @router.get("/s/{session_id}/compare", response_class=HTMLResponse)
 def compare_fragment(request: Request, session_id: str, a: str = "previous",
                      b: str = "current") -> HTMLResponse:
-    bench = bench_of(request)
-    session = bench.session(session_id)
-    return HTMLResponse(render("compare.html", cmp=compare_context(bench, session, a, b)))
+    analyst = analyst_of(request)
+    session = analyst.session(session_id)
+    return HTMLResponse(render("compare.html", cmp=compare_context(analyst, session, a, b)))

@@ -15,9 +15,9 @@ from app.report.cautions import choose_cautions
 from app.report.figures import all_figures
 from app.tables.errors import InputError
 from app.web import views
+from app.web.analyst import Analysis, Analyst, describe_change
 from app.web.compare import FitRef, compare_fits, summary_pairs
 from app.web.state import Session
-from app.web.workbench import Analysis, Workbench, describe_change
 
 ROOT = Path(__file__).resolve().parents[2]
 TEMPLATES = ROOT / "templates"
@@ -54,7 +54,7 @@ def render(name: str, **context: Any) -> str:
     return ENV.get_template(name).render(**context)
 
 
-def fit_ref(bench: Workbench, session: Session, ref: str) -> FitRef | None:
+def fit_ref(analyst: Analyst, session: Session, ref: str) -> FitRef | None:
     """Resolve 'current', 'previous' or 'pin:N' to a fit, or None when there is none."""
     if ref.startswith("pin:"):
         try:
@@ -73,7 +73,7 @@ def fit_ref(bench: Workbench, session: Session, ref: str) -> FitRef | None:
         position, label = session.position - 1, "Before the last change"
     else:
         return None
-    analysis = bench.analysis_at(session, position)
+    analysis = analyst.analysis_at(session, position)
     fit = analysis.diagnosis.get("fit")
     if fit is None:
         return None
@@ -88,8 +88,8 @@ def default_refs(session: Session) -> tuple[str, str]:
     return "previous", "current"
 
 
-def compare_context(bench: Workbench, session: Session, a: str, b: str) -> dict[str, Any]:
-    fa, fb = fit_ref(bench, session, a), fit_ref(bench, session, b)
+def compare_context(analyst: Analyst, session: Session, a: str, b: str) -> dict[str, Any]:
+    fa, fb = fit_ref(analyst, session, a), fit_ref(analyst, session, b)
     choices = [("current", "Current fit")]
     if session.position > 0:
         choices.append(("previous", "Before the last change"))
@@ -102,7 +102,7 @@ def compare_context(bench: Workbench, session: Session, a: str, b: str) -> dict[
     return ctx
 
 
-def workspace_context(bench: Workbench, session: Session, analysis: Analysis,
+def workspace_context(analyst: Analyst, session: Session, analysis: Analysis,
                       can_edit: bool = True) -> dict[str, Any]:
     """Everything the inspection view shows for the current state of a session; without
     can_edit the controls are shown switched off (a view-only link)."""
@@ -135,25 +135,25 @@ def workspace_context(bench: Workbench, session: Session, analysis: Analysis,
         "scalings": SCALINGS,
         "combine_methods": COMBINE_CHOICES,
         "history": history,
-        "cmp": compare_context(bench, session, a, b),
+        "cmp": compare_context(analyst, session, a, b),
         "can_edit": can_edit,
     }
 
 
-def workspace_html(bench: Workbench, session: Session, analysis: Analysis,
+def workspace_html(analyst: Analyst, session: Session, analysis: Analysis,
                    can_edit: bool = True) -> str:
-    return render("workspace.html", **workspace_context(bench, session, analysis, can_edit))
+    return render("workspace.html", **workspace_context(analyst, session, analysis, can_edit))
 
 
-def current_html(bench: Workbench, session: Session, can_edit: bool = True) -> str:
+def current_html(analyst: Analyst, session: Session, can_edit: bool = True) -> str:
     """The workspace of the session's current state. A saved state that no longer analyses
     (say, a recipe step that newer code refuses) gets a fragment with the message and the
     history controls instead, so the session can still be walked back."""
     try:
-        analysis = bench.current(session)
+        analysis = analyst.current(session)
     except InputError as e:
         history = [(i + 1, describe_change(c), i < session.position)
                    for i, c in enumerate(session.history)]
         return render("stuck.html", session=session, problem=e.message, history=history,
                       can_edit=can_edit)
-    return workspace_html(bench, session, analysis, can_edit)
+    return workspace_html(analyst, session, analysis, can_edit)

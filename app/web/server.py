@@ -128,7 +128,7 @@ def run(path: str | os.PathLike | None, host: str = "127.0.0.1", port: int = 876
         lines.append(f"  your start page:  {start} (keep it to yourself: it opens every "
                      "session)")
     if data is not None and table is not None:
-        session, made = app.state.bench.start(data, table.source, table)
+        session, made = app.state.analyst.start(data, table.source, table)
     if engine == "stream":
         start = f"{base}/reducing" + (f"?t={app.state.owner_key}" if share else "")
     if made is not None:

@@ -1,5 +1,5 @@
 """Session routes beyond the analysis: the list, rename, delete, share links, the live feed and
-recipe import. HTTP only: the store and the Workbench do the work; nothing is computed here."""
+recipe import. HTTP only: the store and the Analyst do the work; nothing is computed here."""
 
 from __future__ import annotations
 
@@ -13,11 +13,11 @@ from app.report.export import MAX_RECIPE_BYTES
 from app.tables.errors import InputError
 from app.web import links
 from app.web.access import can_edit, cookie_name, role_of, token_of
-from app.web.api import bench_of, guarded, live_of, state_of
+from app.web.analyst import UnknownSession
+from app.web.api import analyst_of, guarded, live_of, state_of
 from app.web.bodies import sound_text
 from app.web.recipes import import_steps
 from app.web.stored import StoredSessions
-from app.web.workbench import UnknownSession
 
 router = APIRouter(prefix="/api")
 
@@ -66,7 +66,7 @@ def delete(request: Request, session_id: str) -> JSONResponse:
 def share_links(request: Request, session_id: str) -> JSONResponse:
     """The links this request may pass on: both for an editor, the view-only one for a
     viewer. Links are built on the address others reach the server by."""
-    bench_of(request).session(session_id)  # 404 for an unknown session
+    analyst_of(request).session(session_id)  # 404 for an unknown session
     if can_edit(request):
         tokens = sessions_of(request).tokens(session_id)
         if "edit" not in tokens and role_of(request) == "edit" and token_of(request):
@@ -100,11 +100,11 @@ def import_recipe(request: Request, session_id: str, file: Annotated[UploadFile,
     """Import a recipe JSON file: its steps are added as step changes (see recipes.py)."""
     name = file.filename or "recipe.json"
     data = file.file.read(MAX_RECIPE_BYTES + 1)
-    done = guarded(f"importing {name}", import_steps, bench_of(request), session_id, data,
+    done = guarded(f"importing {name}", import_steps, analyst_of(request), session_id, data,
                    name, base_version, import_id)
     if done.saved:
         live_of(request).notify(session_id)
-    body = state_of(request, bench_of(request).session(session_id))
+    body = state_of(request, analyst_of(request).session(session_id))
     body.update(imported=done.saved, steps=done.total)
     if done.refusal is None:
         body["message"] = f"Imported {done.saved} step(s) from {name}."

@@ -12,7 +12,7 @@ from typing import Any
 
 from app.design.design import INTERCEPT
 from app.design.names import quoted
-from app.web.workbench import Analysis
+from app.web.analyst import Analysis
 
 SUPERSCRIPT = str.maketrans("-0123456789", "⁻⁰¹²³⁴⁵⁶⁷⁸⁹")
 

@@ -1,6 +1,6 @@
 """Benchmark: server time of a linear and a nonlinear design change + refit vs a full analysis.
 
-Times the same calls the web app makes (python -m app.web.bench_refit); asserts nothing.
+Times the same calls the web app makes (python -m app.benchmarks.refit); asserts nothing.
 """
 
 from __future__ import annotations
@@ -19,10 +19,10 @@ from app.core import diagnose
 from app.design.recipe import Recipe, build_design
 from app.store import Store
 from app.tables.read import read_table
+from app.web.analyst import Analyst
 from app.web.render import workspace_html
 from app.web.state import Change
 from app.web.stored import StoredSessions
-from app.web.workbench import Workbench
 
 ROOT = Path(__file__).resolve().parents[2]
 DEMO = ROOT / "demo_data" / "cold_storage.csv"
@@ -51,36 +51,36 @@ def full_analysis(path: Path, steps: list[dict]) -> None:
 
 def measure(path: Path, response: str, toggle: str, other: str,
             repeat: int) -> dict[str, tuple[float, float]]:
-    """Full analysis versus one change made through the Workbench as the web app makes it
+    """Full analysis versus one change made through the Analyst as the web app makes it
     (saved in a session store in a temporary folder): a linear one (drop `toggle`, then
     restore it, alternately: the factor path), with and without rendering the workspace
     fragment, and a nonlinear one (a new product of `toggle` and `other`: the rebuild)."""
     steps = [{"step": "response", "column": response}]
     full = _best(lambda: full_analysis(path, steps), repeat)
     with tempfile.TemporaryDirectory() as folder, Store(folder) as store:
-        bench = Workbench(StoredSessions(store), cache_size=2)
-        session, _ = bench.start(path.read_bytes(), path.name)
+        analyst = Analyst(StoredSessions(store), cache_size=2)
+        session, _ = analyst.start(path.read_bytes(), path.name)
         sid = session.session_id
-        bench.apply(sid, Change("step", steps[0]))
+        analyst.apply(sid, Change("step", steps[0]))
         state = {"dropped": False, "products": 0}
         paths: set[str] = set()
 
         def change(render: bool) -> None:
             kind = "restore" if state["dropped"] else "drop"
-            bench.apply(sid, Change("step", {"step": kind, "column": toggle}))
+            analyst.apply(sid, Change("step", {"step": kind, "column": toggle}))
             state["dropped"] = not state["dropped"]
-            now = bench.session(sid)
-            result = bench.current(now)
+            now = analyst.session(sid)
+            result = analyst.current(now)
             paths.add(f"linear: {result.path}")
             if render:
-                workspace_html(bench, now, result)
+                workspace_html(analyst, now, result)
 
         def nonlinear() -> None:
             state["products"] += 1
             name = f"{toggle}_by_{other}_{state['products']}"
-            bench.apply(sid, Change("step", {"step": "product", "columns": [toggle, other],
+            analyst.apply(sid, Change("step", {"step": "product", "columns": [toggle, other],
                                              "name": name}))
-            paths.add(f"nonlinear: {bench.current(bench.session(sid)).path}")
+            paths.add(f"nonlinear: {analyst.current(analyst.session(sid)).path}")
 
         change(False)  # the first change after the start builds the engine: not timed
         change(False)

@@ -1,4 +1,4 @@
-"""The workbench a recipe runs on: working columns in order, with roles and where they came from.
+"""The working columns a recipe runs on, in order, with roles and where they came from.
 
 Holds state and lookups only; what each step does lives in the apply_* modules.
 """
@@ -25,7 +25,7 @@ class Col:
     """A working column. Compared by identity: two columns may hold equal values.
 
     values: float64 for numeric and boolean (0/1), object (str or None) for categorical,
-        datetime64 for date; one entry per row held by the bench.
+        datetime64 for date; one entry per row held.
     sources: the table columns whose missing values make this one missing.
     parents: the working columns it was computed from (for the script and lineage).
     reference: for categorical columns, the level left without an indicator,
@@ -69,7 +69,7 @@ def _table_values(series: pd.Series, kind: str) -> np.ndarray:
 
 
 @dataclass
-class Bench:
+class WorkingColumns:
     """Working columns plus the recipe-wide settings, for the rows `rows` of a table.
 
     rows: 0-based positions in the table of the rows held (all rows, or the kept ones).
@@ -87,7 +87,7 @@ class Bench:
     made: list[list[Col]] = field(default_factory=list)
 
     @classmethod
-    def from_table(cls, table: Table, rows: np.ndarray, strict: bool) -> Bench:
+    def from_table(cls, table: Table, rows: np.ndarray, strict: bool) -> WorkingColumns:
         cols = []
         for name in table.columns:
             kind = table.kinds.get(name)

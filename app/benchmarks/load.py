@@ -1,7 +1,7 @@
 """Load driver: a real rankscope server in a child process on loopback, N virtual users
 uploading, opening and editing the demo table at once for a bounded time; prints one table.
 
-    python -m app.web.load [--sessions 20] [--seconds 30] [--think 0]
+    python -m app.benchmarks.load [--sessions 20] [--seconds 30] [--think 0]
 
 Exit code 1 when any request failed (anything but 2xx or an expected 409, or no answer).
 """
@@ -18,8 +18,8 @@ import time
 from dataclasses import dataclass
 from pathlib import Path
 
-from app.web.load_stats import Row, summarize, table_text
-from app.web.load_user import DEMO, Recorder, guarded_user
+from app.benchmarks.load_stats import Row, summarize, table_text
+from app.benchmarks.load_user import DEMO, Recorder, guarded_user
 from app.web.spawn import LiveServer
 
 
@@ -66,7 +66,7 @@ def machine() -> str:
 
 
 def main(argv: list[str] | None = None) -> int:
-    ap = argparse.ArgumentParser(prog="python -m app.web.load", description=__doc__.split(
+    ap = argparse.ArgumentParser(prog="python -m app.benchmarks.load", description=__doc__.split(
         "\n")[0])
     ap.add_argument("--sessions", type=int, default=20, help="concurrent virtual users")
     ap.add_argument("--seconds", type=float, default=30.0, help="how long they edit")

@@ -14,23 +14,23 @@ from typing import Any
 
 from app.core import diagnose
 from app.design.apply_roles import levels_of
-from app.design.bench import DROPPED, PREDICTOR, RESPONSE
 from app.design.design import Design
 from app.design.names import quoted
 from app.design.recipe import Recipe
 from app.design.replay import trace_design
 from app.design.steps import describe_step, finite_number, short_number
+from app.design.working import DROPPED, PREDICTOR, RESPONSE
 from app.store.records import Applied, Conflict, Created
 from app.tables.errors import InputError
 from app.tables.table import Table
 from app.web import refit
+from app.web.analysis import LEVEL_MENU_LIMIT, Analysis, Settings, WorkingColumn
 from app.web.budget import Budget
 from app.web.recent import Recent, cells
 from app.web.state import Change, PinnedFit, Session, SessionStore
-from app.web.workbench_types import LEVEL_MENU_LIMIT, Analysis, Settings, WorkingColumn
 
 __all__ = ["LEVEL_MENU_LIMIT", "Analysis", "Settings", "UnknownSession", "WorkingColumn",
-           "Workbench", "analyse", "settings_of"]
+           "Analyst", "analyse", "settings_of"]
 
 
 log = logging.getLogger("rankscope.web")
@@ -128,12 +128,12 @@ def analyse(table: Table, settings: Settings) -> Analysis:
         rows_used=design.rows_used,
         notes=list(design.notes),
         diagnosis=diag.to_dict(),
-        working=_working(trace.bench.cols),
+        working=_working(trace.working.cols),
         seconds=time.perf_counter() - start,
     )
 
 
-class Workbench:
+class Analyst:
     """The analysis side of the web app: sessions in a store, recent analyses in memory.
 
     Every change is tried on a copy of the session first; only a change whose analysis
@@ -249,7 +249,7 @@ class Workbench:
 
     def needs_rows(self, session: Session, what: str) -> None:
         """Raise InputError when `what` needs rows this session does not hold (every
-        session here holds its table; see reduced_bench.py)."""
+        session here holds its table; see reduced_analyst.py)."""
 
     def start(self, data: bytes, filename: str, table: Table | None = None
               ) -> tuple[Session, Created]:

@@ -1,4 +1,4 @@
-"""The workbench of an app serving a reduced dataset (Dask or streamed): its session analyses
+"""The analyst of an app serving a reduced dataset (Dask or streamed): its session analyses
 the factor, other sessions the usual rows. Holds factors in memory; no linear algebra here.
 """
 
@@ -16,10 +16,10 @@ from app.store.history import Folded
 from app.store.records import Created
 from app.tables.errors import InputError
 from app.tables.table import Table
+from app.web.analyst import Analysis, Analyst, Settings
 from app.web.reduced import NO_ROWS_NOTE, Reduced, reduced_analysis
 from app.web.reduced_steps import FACTOR_COMBINE, FACTOR_STEPS, refused
 from app.web.state import Session, SessionStore
-from app.web.workbench import Analysis, Settings, Workbench
 
 #: Ends the file name of a reduced session, by engine, so a later run can tell them apart.
 MARKS = {"dask": " (reduced on Dask)", "stream": " (reduced by streaming)"}
@@ -43,7 +43,7 @@ def is_reduced(table: Table) -> bool:
 
 def reduced_check(table: Table, before: Folded, change: StoredChange) -> None:
     """The store's check (see app.store.check): the recipe's replay for ordinary sessions;
-    for a reduced one, only steps its factor can take (the workbench checks the rest on
+    for a reduced one, only steps its factor can take (the analyst checks the rest on
     the factor before anything is saved)."""
     if not is_reduced(table):
         replay_check(table, before, change)
@@ -68,8 +68,8 @@ def _schema(reduced: Reduced) -> Table:
     return Table(frame, dict(reduced.info.kinds), name, [note])
 
 
-class ReducedBench(Workbench):
-    """A Workbench that also holds sessions made from a reduced factor (start_reduced)."""
+class ReducedAnalyst(Analyst):
+    """A Analyst that also holds sessions made from a reduced factor (start_reduced)."""
 
     def __init__(self, store: SessionStore, cache_size: int = 12) -> None:
         super().__init__(store, cache_size)

@@ -1,6 +1,6 @@
 """Speed benchmark: full diagnosis, all VIFs, edit-and-refit, blocked factorization, memory.
 
-`python -m app.bench [--quick]` prints one table with each goal beside its measurement; it
+`python -m app.benchmarks.core [--quick]` prints one table with each goal beside its measurement; it
 asserts nothing and never hides a miss.
 """
 
@@ -195,7 +195,7 @@ def render(rows: list[Row]) -> str:
 
 
 def main(argv: list[str] | None = None) -> None:
-    parser = argparse.ArgumentParser(prog="python -m app.bench", description=__doc__)
+    parser = argparse.ArgumentParser(prog="python -m app.benchmarks.core", description=__doc__)
     parser.add_argument("--quick", action="store_true", help="small sizes, a smoke run")
     parser.add_argument("--threads", type=int, default=None,
                         help="BLAS threads (set before numpy loads, by restarting); "
@@ -203,7 +203,7 @@ def main(argv: list[str] | None = None) -> None:
     args = parser.parse_args(argv)
     if args.threads is not None and os.environ.get(THREAD_VARIABLES[0]) != str(args.threads):
         env = os.environ | {v: str(args.threads) for v in THREAD_VARIABLES}
-        os.execve(sys.executable, [sys.executable, "-m", "app.bench", *sys.argv[1:]], env)
+        os.execve(sys.executable, [sys.executable, "-m", "app.benchmarks.core", *sys.argv[1:]], env)
     mode = "quick" if args.quick else "full"
     for line in machine():
         print(line)

@@ -1,6 +1,6 @@
 """Read benchmark: read_table against pandas.read_csv (default options) on the same CSV file.
 
-    python -m app.tables.bench_read [--mb 100] [--repeat 3]
+    python -m app.benchmarks.read [--mb 100] [--repeat 3]
 
 Writes a CSV of about --mb MB into a temporary folder (6 float columns at full precision, 2
 integer columns, 3 text columns with 3-50 levels, a yes/no column, about 1% empty cells in one

@@ -1,4 +1,4 @@
-"""The shapes an analysis of a session takes: its settings, workbench columns and result.
+"""The shapes an analysis of a session takes: its settings, working columns and result.
 
 Plain frozen records only; computes nothing.
 """
@@ -32,7 +32,7 @@ class Settings:
 
 @dataclass(frozen=True)
 class WorkingColumn:
-    """A column of the recipe's workbench as the controls need it."""
+    """A working column of the recipe as the controls need it."""
 
     name: str
     kind: str
@@ -44,7 +44,7 @@ class WorkingColumn:
 @dataclass(frozen=True)
 class Analysis:
     """One diagnosed state of a session: the design's summary, the diagnosis as a dict,
-    the workbench columns, and how long the build and diagnosis took (seconds)."""
+    the working columns, and how long the build and diagnosis took (seconds)."""
 
     settings: Settings
     columns: list[str]
