@@ -250,7 +250,7 @@ def serve_limits(args: argparse.Namespace) -> Any:
     defaults hold); 0 turns a row, column or time limit off. Refuses senseless values."""
     from dataclasses import replace
 
-    from app.web.limits import MB, Limits
+    from app.web.access.limits import MB, Limits
 
     given = {flag: value for flag, value in (
         ("--max-upload-mb", args.max_upload_mb), ("--max-rows", args.max_rows),

@@ -20,7 +20,7 @@ from app.design.recipe import Recipe, build_design
 from app.store import Store
 from app.tables.read import read_table
 from app.web.analyst import Analyst
-from app.web.render import workspace_html
+from app.web.rendering.render import workspace_html
 from app.web.state import Change
 from app.web.stored import StoredSessions
 

@@ -19,17 +19,17 @@ from starlette.exceptions import HTTPException as StarletteHTTPException
 
 from app.store import SessionNotFound, Store
 from app.tables.errors import InputError
-from app.web import api, assets, downloads, pages, sessions
-from app.web.access import AccessGate
+from app.web.access.bodies import safe_text
+from app.web.access.bodysize import BodyLimit
+from app.web.access.gate import AccessGate
+from app.web.access.guard import DEFAULT_HOSTS, Guard
+from app.web.access.lanes import RequestThreads
+from app.web.access.limits import Limits
 from app.web.analyst import Analyst, UnknownSession
-from app.web.bodies import safe_text
-from app.web.bodysize import BodyLimit
 from app.web.budget import AnalysisTooSlow, Budget
-from app.web.guard import DEFAULT_HOSTS, Guard
-from app.web.lanes import RequestThreads
-from app.web.limits import Limits
-from app.web.live import Hub
-from app.web.render import STATIC, render
+from app.web.live.feed import Hub
+from app.web.rendering.render import STATIC, render
+from app.web.routes import api, assets, downloads, pages, sessions
 from app.web.stored import StoredSessions
 
 GONE = ("There is no session at this address: it may have been deleted, or the link may be "
@@ -99,7 +99,7 @@ def create_app(store: Store | None = None, *, share: bool = False,
         allowed_hosts = DEFAULT_HOSTS | ({urlsplit(public_url).netloc.lower()} if public_url
                                          else set())
     app.state.allowed_hosts = frozenset(allowed_hosts)
-    app.add_middleware(RequestThreads)  # a few requests at a time, in turn (see lanes.py)
+    app.add_middleware(RequestThreads)  # a few requests at a time, in turn (see access/lanes.py)
     app.add_middleware(BodyLimit, limit=limits.max_upload_bytes,
                        limit_text=limits.upload_text())
     app.add_middleware(AccessGate, access=app.state.sessions.access, share=share,

@@ -11,8 +11,8 @@ from dataclasses import dataclass
 from app.report.export import import_recipe
 from app.store import Conflict
 from app.tables.errors import InputError
+from app.web.access.bodies import sound_text
 from app.web.analyst import Analyst
-from app.web.bodies import sound_text
 from app.web.state import Change
 
 #: Room left in a change id (at most 100 characters) for ":<step number>".

@@ -18,10 +18,10 @@ import uvicorn
 from app.store import Store, default_root
 from app.store.records import Created
 from app.tables.read import read_table
+from app.web.access.guard import hosts_for
+from app.web.access.limits import Limits
+from app.web.access.links import link
 from app.web.app import create_app
-from app.web.guard import hosts_for
-from app.web.limits import Limits
-from app.web.links import link
 from app.web.state import Session
 
 #: Seconds a stopping server waits for open requests; live feeds never end on their own

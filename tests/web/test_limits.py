@@ -19,10 +19,10 @@ import pytest
 from fastapi.testclient import TestClient
 
 from app.cli import build_parser, main, serve_limits
+from app.web.access.limits import MB, Limits
 from app.web.analyst import Analyst
 from app.web.app import create_app
 from app.web.budget import AnalysisTooSlow, Budget
-from app.web.limits import MB, Limits
 from tests.web.conftest import to_csv, units_table
 
 SMALL = Limits(max_upload_bytes=5_000, max_rows=50, max_columns=4, analysis_seconds=None)

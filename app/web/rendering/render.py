@@ -14,12 +14,12 @@ from app.design.steps import COMBINE_METHODS
 from app.report.cautions import choose_cautions
 from app.report.figures import all_figures
 from app.tables.errors import InputError
-from app.web import views
 from app.web.analyst import Analysis, Analyst, describe_change
-from app.web.compare import FitRef, compare_fits, summary_pairs
+from app.web.rendering import views
+from app.web.rendering.compare import FitRef, compare_fits, summary_pairs
 from app.web.state import Session
 
-ROOT = Path(__file__).resolve().parents[2]
+ROOT = Path(__file__).resolve().parents[3]
 TEMPLATES = ROOT / "templates"
 STATIC = ROOT / "static"
 

@@ -1,6 +1,6 @@
 """Page routes: the start page, a table's overview, the inspection view and its fragments.
 
-Renders core results through render.py; no linear algebra and no state changes here.
+Renders core results through rendering/render.py; no linear algebra and no state changes here.
 """
 
 from __future__ import annotations
@@ -10,10 +10,10 @@ from fastapi.responses import HTMLResponse
 
 from app.tables import sniff
 from app.tables.errors import InputError
-from app.web.access import can_edit, role_of
+from app.web.access.gate import can_edit, role_of
 from app.web.analyst import Analyst
-from app.web.overview import summarize
-from app.web.render import compare_context, current_html, render
+from app.web.rendering.overview import summarize
+from app.web.rendering.render import compare_context, current_html, render
 
 router = APIRouter()
 

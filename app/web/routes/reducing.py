@@ -9,7 +9,7 @@ from typing import Any
 from fastapi import APIRouter, Request
 from fastapi.responses import HTMLResponse, RedirectResponse
 
-from app.web.render import render
+from app.web.rendering.render import render
 
 router = APIRouter()
 

@@ -11,12 +11,12 @@ from fastapi.responses import JSONResponse, StreamingResponse
 
 from app.report.export import MAX_RECIPE_BYTES
 from app.tables.errors import InputError
-from app.web import links
-from app.web.access import can_edit, cookie_name, role_of, token_of
+from app.web.access import links
+from app.web.access.bodies import sound_text
+from app.web.access.gate import can_edit, cookie_name, role_of, token_of
 from app.web.analyst import UnknownSession
-from app.web.api import analyst_of, guarded, live_of, state_of
-from app.web.bodies import sound_text
 from app.web.recipes import import_steps
+from app.web.routes.api import analyst_of, guarded, live_of, state_of
 from app.web.stored import StoredSessions
 
 router = APIRouter(prefix="/api")
@@ -97,7 +97,7 @@ async def events(request: Request, session_id: str) -> StreamingResponse:
 def import_recipe(request: Request, session_id: str, file: Annotated[UploadFile, File()],
                   base_version: Annotated[int | None, Form()] = None,
                   import_id: Annotated[str | None, Form()] = None) -> JSONResponse:
-    """Import a recipe JSON file: its steps are added as step changes (see recipes.py)."""
+    """Import a recipe JSON file: its steps are added as step changes (see app/web/recipes.py)."""
     name = file.filename or "recipe.json"
     data = file.file.read(MAX_RECIPE_BYTES + 1)
     done = guarded(f"importing {name}", import_steps, analyst_of(request), session_id, data,

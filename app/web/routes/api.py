@@ -17,15 +17,15 @@ from app.report.figures import all_figures, correlation_heatmap
 from app.store import Applied, Conflict, SessionNotFound
 from app.tables.errors import InputError
 from app.tables.read import read_bytes
-from app.web.access import COOKIE_SECONDS, can_edit, cookie_name
+from app.web.access.bodies import safe_text, sound_text
+from app.web.access.gate import COOKIE_SECONDS, can_edit, cookie_name
+from app.web.access.limits import Limits
 from app.web.analyst import Analyst, UnknownSession, settings_of
-from app.web.bodies import safe_text, sound_text
 from app.web.budget import AnalysisTooSlow
-from app.web.limits import Limits
-from app.web.live import Hub
-from app.web.render import current_html
+from app.web.live.feed import Hub
+from app.web.rendering.render import current_html
+from app.web.rendering.views import plain
 from app.web.state import CHANGE_KINDS, Change, Session
-from app.web.views import plain
 
 # Every route is a plain `def`: FastAPI runs it in its thread pool, so a long refit never
 # blocks the event loop that serves other requests.

@@ -1,6 +1,6 @@
 """Download routes: a session's report, recipe, script and design CSV as attachments.
 
-HTTP only: contents come from exports.py; nothing is computed or saved here.
+HTTP only: contents come from rendering/exports.py; nothing is computed or saved here.
 """
 
 from __future__ import annotations
@@ -9,8 +9,8 @@ from fastapi import APIRouter, Request
 from fastapi.responses import Response, StreamingResponse
 
 from app.tables.errors import InputError
-from app.web import exports
-from app.web.api import analyst_of, guarded
+from app.web.rendering import exports
+from app.web.routes.api import analyst_of, guarded
 
 router = APIRouter(prefix="/api")
 

@@ -1,6 +1,6 @@
 """Serves plotly.js from the installed plotly package, so no page needs the network.
 
-Static files of our own are mounted in app.py; nothing here is fetched from elsewhere.
+Static files of our own are mounted in app/web/app.py; nothing here is fetched from elsewhere.
 """
 
 from __future__ import annotations
