@@ -1,8 +1,8 @@
 """rankscope: inspect the design matrix of a linear model.
 
-Layers (data flows one way): tables -> design -> core -> report/web/cli. The Python API's
-names load on first use (module __getattr__, PEP 562), so `import app` stays light: no
-numpy-heavy, pandas, scipy or web modules until a name is used.
+Imports run one way, the allowed directions listed once in DEVELOPERS.md (Architecture map).
+The Python API's names load on first use (module __getattr__, PEP 562), so `import app`
+stays light: no numpy-heavy, pandas, scipy or web modules until a name is used.
 """
 
 from __future__ import annotations

@@ -9,22 +9,22 @@ import argparse
 import io
 import json
 import math
-import operator
 import re
 import sys
-from collections.abc import Callable
 from dataclasses import dataclass
 from pathlib import Path
-from typing import Any, NoReturn
+from typing import Any, NoReturn, TextIO
 
-from app.report.document import json_ready
+from app.report.checks import (
+    EXIT_BAD_INPUT,
+    EXIT_CROSSED,
+    EXIT_OK,
+    check_document,
+    evaluate,
+    json_ready,
+    parse_rule,
+)
 from app.tables.errors import InputError
-
-__all__ = ["json_ready", "main"]  # json_ready: the streamed check writes with it too
-
-EXIT_OK = 0
-EXIT_CROSSED = 1
-EXIT_BAD_INPUT = 2
 
 CHECK_HELP = """\
 --fail-if rules (repeatable; exit code 1 when any is crossed, each crossing named on stderr):
@@ -42,103 +42,6 @@ class Parser(argparse.ArgumentParser):
 
     def error(self, message: str) -> NoReturn:
         raise InputError(message, "", f"See {self.prog} --help")
-
-
-# ---------------------------------------------------------------- --fail-if rules
-
-
-@dataclass(frozen=True)
-class Rule:
-    """One --fail-if rule: a metric compared with a limit (None for 'deficient')."""
-
-    text: str
-    metric: str
-    limit: float | None
-    inclusive: bool
-
-    def crossed(self, value: float) -> bool:
-        if self.limit is None:
-            return bool(value)
-        return (operator.ge if self.inclusive else operator.gt)(value, self.limit)
-
-
-def _largest_vif(d: dict) -> tuple[float, str]:
-    vif = d["vif"]
-    if not vif:
-        return 0.0, "no VIF (fewer than two predictors)"
-    vals = {c: (math.inf if v is None else v) for c, v in vif.items()}
-    top = max(vals.values())
-    cols = [c for c, v in vals.items() if v == top]
-    return top, f"largest VIF {_show(top)} ({', '.join(cols[:4])}{', …' if len(cols) > 4 else ''})"
-
-
-def _largest_index(d: dict) -> tuple[float, str]:
-    if any(d["index_exact"]):
-        return math.inf, "an exact dependency (condition index ∞)"
-    vals = [math.inf if v is None else v for v in d["condition_indices"]]
-    top = max(vals, default=0.0)
-    return top, f"largest condition index {_show(top)}"
-
-
-def _cond(d: dict) -> tuple[float, str]:
-    v = d["condition_number"]["equilibrated"]
-    v = math.inf if v is None else v
-    return v, f"condition number of the unit-length columns {_show(v)}"
-
-
-def _deficient(d: dict) -> tuple[float, str]:
-    p = len(d["columns"])
-    return float(not d["full_rank"]), f"rank {d['rank']} of {p} columns"
-
-
-METRICS: dict[str, Callable[[dict], tuple[float, str]]] = {
-    "vif": _largest_vif,
-    "index": _largest_index,
-    "cond": _cond,
-    "deficient": _deficient,
-}
-
-
-def _show(x: float) -> str:
-    return "∞" if math.isinf(x) else f"{x:.4g}"
-
-
-def parse_rule(text: str) -> Rule:
-    """'vif>10', 'index>=30', 'cond>1e6' or 'deficient'."""
-    t = text.strip().lower().replace(" ", "")
-    if t == "deficient":
-        return Rule(text, "deficient", None, False)
-    sign = ">=" if ">=" in t else ">"
-    name, _, limit = t.partition(sign)
-    inclusive = sign == ">="
-    if name not in METRICS or name == "deficient" or not limit:
-        raise InputError(
-            f"cannot read the rule {text!r}", "--fail-if",
-            "Write vif>N, index>N, cond>N or deficient (for example --fail-if 'vif>10')")
-    try:
-        value = float(limit)
-    except ValueError:
-        value = math.nan
-    if not math.isfinite(value):
-        raise InputError(f"the limit in {text!r} is not a finite number", "--fail-if",
-                         "Write a number after the sign, for example vif>10")
-    return Rule(text, name, value, inclusive)
-
-
-def evaluate(rules: list[Rule], d: dict) -> list[dict]:
-    """Each rule with its measured value (null when infinite) and whether it is crossed."""
-    out = []
-    for r in rules:
-        value, detail = METRICS[r.metric](d)
-        out.append({
-            "rule": r.text,
-            "metric": r.metric,
-            "limit": r.limit,
-            "value": value if math.isfinite(value) else None,
-            "crossed": r.crossed(value),
-            "detail": detail,
-        })
-    return out
 
 
 # ---------------------------------------------------------------- check
@@ -223,21 +126,6 @@ def check_names(args: argparse.Namespace, columns: list[str]) -> None:
                              suggestion(name, columns))
 
 
-def check_formula_options(args: argparse.Namespace) -> None:
-    """With --formula the formula names the response; --response may only repeat it."""
-    lhs, tilde, _ = args.formula.partition("~")
-    if args.response and (not tilde or lhs.strip().strip("`") != args.response):
-        raise InputError("--formula names the response left of ~", "--response",
-                         f"Write the formula as '{args.response} ~ ...' and leave out "
-                         "--response")
-    if args.all_levels:
-        raise InputError("--all-levels codes the table's categorical columns; with --formula "
-                         "the formula codes them", "--all-levels",
-                         "Write C(column) or leave out the intercept (0 + C(column)) in the "
-                         "formula")
-    args.response = None  # the formula's own response step sets it
-
-
 def read(args: argparse.Namespace):
     """The table, with reading failures turned into InputError."""
     from app.tables.read import read_table
@@ -259,18 +147,67 @@ def read(args: argparse.Namespace):
                          "Check that it is a CSV, TSV, Excel or Parquet file") from e
 
 
+def check_formula_options(args: argparse.Namespace) -> None:
+    """With --formula the formula names the response; --response may only repeat it."""
+    lhs, tilde, _ = args.formula.partition("~")
+    if args.response and (not tilde or lhs.strip().strip("`") != args.response):
+        raise InputError("--formula names the response left of ~", "--response",
+                         f"Write the formula as '{args.response} ~ ...' and leave out "
+                         "--response")
+    if args.all_levels:
+        raise InputError("--all-levels codes the table's categorical columns; with --formula "
+                         "the formula codes them", "--all-levels",
+                         "Write C(column) or leave out the intercept (0 + C(column)) in the "
+                         "formula")
+    args.response = None  # the formula's own response step sets it
+
+
+def _checked_options(args: argparse.Namespace) -> list:
+    """The --fail-if rules, after refusing a senseless --tol (both before any reading)."""
+    rules = [parse_rule(t) for t in args.fail_if]
+    if args.tol is not None and not (math.isfinite(args.tol) and args.tol > 0):
+        raise InputError(f"the tolerance must be a positive number, not {args.tol}", "--tol")
+    return rules
+
+
+def _check_keep(args: argparse.Namespace, columns: list[str]) -> None:
+    from app.design.names import quoted, suggestion
+
+    for name in args.keep:
+        if name not in columns:
+            raise InputError(f"the design has no column named {quoted(name)}", "--keep",
+                             suggestion(name, columns))
+
+
+def _write_check(args: argparse.Namespace, rules: list, diagnosis: dict, design: Any,
+                 source: str, notes: list[str], out: TextIO, err: TextIO,
+                 extra: dict[str, Any] | None = None) -> int:
+    """The report (text, or JSON with `extra` fields last), each crossed rule on err, and the
+    exit code."""
+    checks = evaluate(rules, diagnosis)
+    if args.json:
+        doc = check_document(diagnosis, design, source, notes, checks)
+        doc.update(extra or {})
+        # ASCII-only JSON (\u escapes) survives any terminal encoding unchanged.
+        out.write(json.dumps(json_ready(doc), allow_nan=False, indent=2) + "\n")
+    else:
+        from app.report.text import render_text
+
+        out.write(render_text(diagnosis, design, source=source, notes=notes))
+    crossed = [c for c in checks if c["crossed"]]
+    for c in crossed:
+        print(f"rankscope: --fail-if {c['rule']} crossed: {c['detail']}", file=err)
+    return EXIT_CROSSED if crossed else EXIT_OK
+
+
 def run_check(args: argparse.Namespace) -> int:
     if getattr(args, "stream", False):
         if getattr(args, "formula", None) is not None:
             raise InputError("--stream reads the file's columns block by block; a formula "
                              "needs the whole table", "--formula",
                              "Leave out --stream, or use --response with recipe steps")
-        from app.scale.stream import stream_check
-
         return stream_check(args)
-    rules = [parse_rule(t) for t in args.fail_if]
-    if args.tol is not None and not (math.isfinite(args.tol) and args.tol > 0):
-        raise InputError(f"the tolerance must be a positive number, not {args.tol}", "--tol")
+    rules = _checked_options(args)
     table = read(args)
     if args.formula is not None:
         check_formula_options(args)
@@ -291,33 +228,56 @@ def run_check(args: argparse.Namespace) -> int:
             design = build_design(table, Recipe(steps.steps))
     except InputError as e:
         raise steps.relabel(e) from e
-    for name in args.keep:
-        if name not in design.columns:
-            from app.design.names import quoted, suggestion
-
-            raise InputError(f"the design has no column named {quoted(name)}", "--keep",
-                             suggestion(name, design.columns))
+    _check_keep(args, design.columns)
     F = factorize(design.X, design.columns, design.y)
     keep = list(args.keep) or None
     found = diagnose_factor(F, response=design.response, groups=design.groups, keep=keep,
                             tol=args.tol, influence=args.influence)
     diagnosis = found.to_dict()
     diagnosis["remedies"] = remedies_of(found, F, design, steps.steps, keep, args.tol)
-    checks = evaluate(rules, diagnosis)
-    if args.json:
-        from app.report.document import check_document
+    return _write_check(args, rules, diagnosis, design, table.source, table.notes,
+                        sys.stdout, sys.stderr)
 
-        doc = check_document(diagnosis, design, table.source, table.notes, checks)
-        # ASCII-only JSON (\u escapes) survives any terminal encoding unchanged.
-        sys.stdout.write(json.dumps(doc, allow_nan=False, indent=2) + "\n")
-    else:
-        from app.report.text import render_text
 
-        sys.stdout.write(render_text(diagnosis, design, source=table.source, notes=table.notes))
-    crossed = [c for c in checks if c["crossed"]]
-    for c in crossed:
-        print(f"rankscope: --fail-if {c['rule']} crossed: {c['detail']}", file=sys.stderr)
-    return EXIT_CROSSED if crossed else EXIT_OK
+def stream_check(args: argparse.Namespace, *, out: TextIO | None = None,
+                 err: TextIO | None = None) -> int:
+    """`rankscope check FILE --stream`: run_check's output and exit codes, the file read block
+    by block with a progress bar on stderr."""
+    from app.core.diagnosis import diagnose_factor
+    from app.design.recipe import Recipe
+    from app.scale.stream import stream_source
+    from app.scale.stream_bar import ProgressBar
+    from app.scale.stream_source import open_source
+
+    out = out or sys.stdout
+    err = err or sys.stderr
+    rules = _checked_options(args)
+    if getattr(args, "sheet", None):
+        raise InputError("--stream reads CSV/TSV and Parquet files, which have no sheets",
+                         "--sheet", "Leave out --sheet, or leave out --stream for a workbook")
+    source = open_source(args.file)
+    if not args.recipe:
+        check_names(args, source.columns)
+    steps = recipe_steps(args, dict(source.kinds))
+    bar = ProgressBar(err)
+    try:
+        F, info = stream_source(source, Recipe(steps.steps), progress=bar)
+    except InputError as e:
+        raise steps.relabel(e) from e
+    finally:
+        bar.close()
+    _check_keep(args, info.columns)
+    from app.report.remedies import remedies_of
+
+    keep = list(args.keep) or None
+    found = diagnose_factor(F, response=info.response, groups=info.groups, keep=keep,
+                            tol=args.tol)
+    diagnosis = found.to_dict()
+    diagnosis["remedies"] = remedies_of(found, F, info.design(), steps.steps, keep, args.tol)
+    stream = {"passes": info.passes, "blocks": info.blocks, "bytes": info.bytes_total,
+              "seconds": round(info.seconds, 3)}
+    return _write_check(args, rules, diagnosis, info.design(), info.source, info.table_notes,
+                        out, err, {"stream": stream})
 
 
 def serve_limits(args: argparse.Namespace) -> Any:
@@ -325,7 +285,7 @@ def serve_limits(args: argparse.Namespace) -> Any:
     defaults hold); 0 turns a row, column or time limit off. Refuses senseless values."""
     from dataclasses import replace
 
-    from app.web.limits import MB, Limits
+    from app.web.access.limits import MB, Limits
 
     given = {flag: value for flag, value in (
         ("--max-upload-mb", args.max_upload_mb), ("--max-rows", args.max_rows),

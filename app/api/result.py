@@ -75,10 +75,10 @@ class Inspection:
             types: the Diagnosis' fields plus the previewed remedies, source, design, cautions
             and (empty) checks; infinite or undefined numbers are None.
         """
-        from app.report.document import check_document
+        from app.report.checks import check_document, json_ready
 
         found = self.diagnosis.to_dict() | {"remedies": self.remedies}
-        return check_document(found, self.design, self.source, self.table_notes, [])
+        return json_ready(check_document(found, self.design, self.source, self.table_notes, []))
 
     def to_json(self, indent: int | None = 2) -> str:
         """The diagnosis as JSON text.

@@ -53,7 +53,7 @@ def _start(port: int | None, data_dir: str | os.PathLike | None, limits: Any) ->
 
     from app.store import Store, default_root
     from app.web.app import create_app
-    from app.web.guard import hosts_for
+    from app.web.access.guard import hosts_for
     from app.web.server import SHUTDOWN_SECONDS, base_url
 
     port = port or _free_port()
@@ -150,7 +150,7 @@ def serve(data: Any, response: str | None = None, *, formula: str | None = None,
         The port of the server when it is started here (default: a free one).
     data_dir : path, optional
         Where sessions are kept (default ~/.rankscope, as `rankscope serve`).
-    limits : app.web.limits.Limits, optional
+    limits : app.web.access.limits.Limits, optional
         Upload, table and time limits (default: those of `rankscope serve`).
     open_browser : bool
         Open the address in the browser as well.
@@ -161,9 +161,9 @@ def serve(data: Any, response: str | None = None, *, formula: str | None = None,
         The session's address on http://127.0.0.1, with its edit key.
     """
     global _running
-    from app.web.formulas import start_session
-    from app.web.limits import Limits
-    from app.web.links import link
+    from app.web.routes.formulas import start_session
+    from app.web.access.limits import Limits
+    from app.web.access.links import link
 
     table, steps, source = _starting_point(data, response, formula, recipe)
     limits = limits or Limits()

@@ -10,9 +10,9 @@ from typing import Any
 
 import numpy as np
 
-from app.design.bench import Bench, Col, derived
 from app.design.names import number_text, quoted
 from app.design.steps import output_name
+from app.design.working import Col, WorkingColumns, derived
 from app.tables.errors import InputError
 
 Result = tuple[np.ndarray, str | None]
@@ -22,21 +22,21 @@ def _present(x: np.ndarray) -> np.ndarray:
     return ~np.isnan(x)
 
 
-def _center(bench: Bench, col: Col, step: dict[str, Any]) -> Result:
+def _center(working: WorkingColumns, col: Col, step: dict[str, Any]) -> Result:
     x = col.values
     ok = _present(x)
     if not ok.any():
-        return np.full_like(x, np.nan), bench.trouble(f"{quoted(col.name)} has no values")
+        return np.full_like(x, np.nan), working.trouble(f"{quoted(col.name)} has no values")
     return x - x[ok].mean(), None
 
 
-def _standardize(bench: Bench, col: Col, step: dict[str, Any]) -> Result:
+def _standardize(working: WorkingColumns, col: Col, step: dict[str, Any]) -> Result:
     x = col.values
     ok = _present(x)
     if ok.sum() < 2 or x[ok].min() == x[ok].max():
         # Exact constancy: a computed sd of equal values can be a tiny non-zero number.
         shown = number_text(x[ok][0]) if ok.any() else "missing"
-        problem = bench.trouble(
+        problem = working.trouble(
             f"{quoted(col.name)} has no spread (every value is {shown}), "
             "so it cannot be divided by its standard deviation",
             "Use a center step instead, or drop the column",
@@ -45,12 +45,12 @@ def _standardize(bench: Bench, col: Col, step: dict[str, Any]) -> Result:
     return (x - x[ok].mean()) / x[ok].std(ddof=1), None
 
 
-def _unit_length(bench: Bench, col: Col, step: dict[str, Any]) -> Result:
+def _unit_length(working: WorkingColumns, col: Col, step: dict[str, Any]) -> Result:
     x = col.values
     ok = _present(x)
     length = float(np.linalg.norm(x[ok])) if ok.any() else 0.0
     if length == 0.0:
-        problem = bench.trouble(
+        problem = working.trouble(
             f"{quoted(col.name)} is all zero, so it has no length to divide by",
             "Drop the column",
         )
@@ -58,7 +58,7 @@ def _unit_length(bench: Bench, col: Col, step: dict[str, Any]) -> Result:
     return x / length, None
 
 
-def _multiply(bench: Bench, col: Col, step: dict[str, Any]) -> Result:
+def _multiply(working: WorkingColumns, col: Col, step: dict[str, Any]) -> Result:
     return col.values * float(step["by"]), None
 
 
@@ -66,7 +66,7 @@ def _first(bad: np.ndarray) -> int | None:
     return int(np.flatnonzero(bad)[0]) if bad.any() else None
 
 
-def _log(bench: Bench, col: Col, step: dict[str, Any]) -> Result:
+def _log(working: WorkingColumns, col: Col, step: dict[str, Any]) -> Result:
     shift = float(step.get("shift", 0))
     y = col.values + shift
     i = _first(_present(y) & (y <= 0))
@@ -75,7 +75,7 @@ def _log(bench: Bench, col: Col, step: dict[str, Any]) -> Result:
         shifted = f" (plus the shift {number_text(shift)}: {number_text(y[i])})" if shift else ""
         raise InputError(
             f"a log needs positive values, but {quoted(col.name)} is {value}{shifted}",
-            bench.where(i, col),
+            working.where(i, col),
             "Give the log step a shift that makes every value positive, or leave the log out",
         )
     base = step.get("base")
@@ -88,7 +88,7 @@ def _log(bench: Bench, col: Col, step: dict[str, Any]) -> Result:
     return np.log(y) / np.log(float(base)), None
 
 
-def _power(bench: Bench, col: Col, step: dict[str, Any]) -> Result:
+def _power(working: WorkingColumns, col: Col, step: dict[str, Any]) -> Result:
     e = float(step["exponent"])
     x = col.values
     i = None if e.is_integer() else _first(_present(x) & (x < 0))
@@ -96,20 +96,20 @@ def _power(bench: Bench, col: Col, step: dict[str, Any]) -> Result:
         raise InputError(
             f"a negative number has no real power {number_text(e)}, "
             f"and {quoted(col.name)} is {number_text(x[i])}",
-            bench.where(i, col),
+            working.where(i, col),
             "Use a whole-number exponent, or make the column positive first",
         )
     i = _first(x == 0) if e < 0 else None
     if i is not None:
         raise InputError(
             f"0 to the negative power {number_text(e)} is infinite, and {quoted(col.name)} is 0",
-            bench.where(i, col),
+            working.where(i, col),
             "Use a positive exponent, or leave the power out",
         )
     return np.power(x, e), None
 
 
-COMPUTE: dict[str, Callable[[Bench, Col, dict[str, Any]], Result]] = {
+COMPUTE: dict[str, Callable[[WorkingColumns, Col, dict[str, Any]], Result]] = {
     "center": _center,
     "standardize": _standardize,
     "unit_length": _unit_length,
@@ -119,7 +119,7 @@ COMPUTE: dict[str, Callable[[Bench, Col, dict[str, Any]], Result]] = {
 }
 
 
-def check_finite(bench: Bench, inputs: list[Col], values: np.ndarray, what: str) -> None:
+def check_finite(working: WorkingColumns, inputs: list[Col], values: np.ndarray, what: str) -> None:
     """Refuse results that overflowed: the core needs finite numbers."""
     present = np.ones(len(values), dtype=bool)
     for c in inputs:
@@ -129,29 +129,29 @@ def check_finite(bench: Bench, inputs: list[Col], values: np.ndarray, what: str)
         i = int(np.flatnonzero(bad)[0])
         raise InputError(
             f"{what} is too large to hold as a number",
-            bench.where(i, inputs[0]),
+            working.where(i, inputs[0]),
             "Rescale the columns first (a multiply or standardize step)",
         )
 
 
-def place(bench: Bench, col: Col, out: Col, keep: bool) -> None:
+def place(working: WorkingColumns, col: Col, out: Col, keep: bool) -> None:
     """Put a result in place of its column, or beside it when the original is kept."""
     if keep:
-        bench.check_free(out.name)
-        bench.insert_after(col, out)
+        working.check_free(out.name)
+        working.insert_after(col, out)
     else:
-        bench.check_free(out.name, replacing=(col,))
-        bench.replace(col, out)
+        working.check_free(out.name, replacing=(col,))
+        working.replace(col, out)
 
 
-def apply_single(bench: Bench, step: dict[str, Any]) -> list[Col]:
+def apply_single(working: WorkingColumns, step: dict[str, Any]) -> list[Col]:
     """Run a single-column step; return the column it made."""
     kind = step["step"]
-    col = bench.number_col(step["column"], f"the {kind} step")
-    values, problem = COMPUTE[kind](bench, col, step)
+    col = working.number_col(step["column"], f"the {kind} step")
+    values, problem = COMPUTE[kind](working, col, step)
     if problem is None:
-        check_finite(bench, [col], values, f"the {kind} of {quoted(col.name)}")
+        check_finite(working, [col], values, f"the {kind} of {quoted(col.name)}")
     out = derived(output_name(step), "numeric", values, (col,))
     out.problem = problem or out.problem
-    place(bench, col, out, bool(step.get("keep", False)))
+    place(working, col, out, bool(step.get("keep", False)))
     return [out]

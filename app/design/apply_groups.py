@@ -10,37 +10,38 @@ from typing import Any
 import numpy as np
 
 from app.design.apply_columns import check_finite
-from app.design.bench import PREDICTOR, RESPONSE, Bench, Col, derived
 from app.design.names import number_text, quoted
+from app.design.working import PREDICTOR, RESPONSE, Col, WorkingColumns, derived
 from app.tables.errors import InputError
 
 
-def apply_product(bench: Bench, step: dict[str, Any]) -> list[Col]:
+def apply_product(working: WorkingColumns, step: dict[str, Any]) -> list[Col]:
     """Add a*b right after a (after any columns already made beside a)."""
     a_name, b_name = step["columns"]
-    a = bench.number_col(a_name, "a product")
-    b = bench.number_col(b_name, "a product")
+    a = working.number_col(a_name, "a product")
+    b = working.number_col(b_name, "a product")
     values = a.values * b.values
-    check_finite(bench, [a, b], values, f"the product of {quoted(a.name)} and {quoted(b.name)}")
+    check_finite(working, [a, b], values, f"the product of {quoted(a.name)} and {quoted(b.name)}")
     out = derived(step["name"], "numeric", values, (a,) if a is b else (a, b))
-    bench.check_free(out.name)
-    bench.insert_after(a, out)
+    working.check_free(out.name)
+    working.insert_after(a, out)
     return [out]
 
 
-def _ratio(bench: Bench, a: Col, b: Col) -> np.ndarray:
+def _ratio(working: WorkingColumns, a: Col, b: Col) -> np.ndarray:
     zero = b.values == 0
     if zero.any():
         i = int(np.flatnonzero(zero)[0])
         raise InputError(
             f"the ratio divides by {quoted(b.name)}, which is 0 here",
-            bench.where(i, b),
+            working.where(i, b),
             "Use a difference, or swap the columns if the other one is never 0",
         )
     return a.values / b.values
 
 
-def _first_component(bench: Bench, members: list[Col], name: str) -> tuple[np.ndarray, str | None]:
+def _first_component(working: WorkingColumns, members: list[Col], name: str
+                     ) -> tuple[np.ndarray, str | None]:
     """Scores on the first principal component of the standardized members.
 
     Standardized with the sample standard deviation (ddof=1) over rows where no member is
@@ -50,7 +51,7 @@ def _first_component(bench: Bench, members: list[Col], name: str) -> tuple[np.nd
     complete = ~np.isnan(X).any(axis=1)
     scores = np.full(len(X), np.nan)
     if complete.sum() < 2:
-        return scores, bench.trouble(
+        return scores, working.trouble(
             f"the first component needs at least 2 rows where {name}'s members all have values"
         )
     Xc = X[complete]
@@ -58,7 +59,7 @@ def _first_component(bench: Bench, members: list[Col], name: str) -> tuple[np.nd
         m for m, lo, hi in zip(members, Xc.min(axis=0), Xc.max(axis=0), strict=True) if lo == hi
     ]
     if flat:
-        return scores, bench.trouble(
+        return scores, working.trouble(
             f"{quoted(flat[0].name)} is constant, so it cannot be standardized for the component",
             "Leave it out of the group",
         )
@@ -68,7 +69,7 @@ def _first_component(bench: Bench, members: list[Col], name: str) -> tuple[np.nd
             raise np.linalg.LinAlgError("values too large to standardize")
         _, s, vt = np.linalg.svd(Z, full_matrices=False)
     except np.linalg.LinAlgError:
-        return scores, bench.trouble(
+        return scores, working.trouble(
             f"the first component of {quoted(name)}'s members could not be computed "
             "(values too large or too uneven)",
             "Rescale the members first (a multiply or standardize step)",
@@ -80,16 +81,16 @@ def _first_component(bench: Bench, members: list[Col], name: str) -> tuple[np.nd
         f"{quoted(m.name)} {number_text(round(w, 3))}"
         for m, w in zip(members, weights, strict=True)
     )
-    bench.notes.append(
+    working.notes.append(
         f"{quoted(name)} is the first principal component of its standardized members; "
         f"it carries {share:.0%} of their variance (weights: {listed})."
     )
     return scores, None
 
 
-def apply_combine(bench: Bench, step: dict[str, Any]) -> list[Col]:
+def apply_combine(working: WorkingColumns, step: dict[str, Any]) -> list[Col]:
     """Replace the members by one column at the first listed member's position."""
-    members = [bench.number_col(n, "combine") for n in step["columns"]]
+    members = [working.number_col(n, "combine") for n in step["columns"]]
     for m in members:
         if m.role == RESPONSE:
             raise InputError(
@@ -98,7 +99,7 @@ def apply_combine(bench: Bench, step: dict[str, Any]) -> list[Col]:
                 'Choose another response first ({"step": "response", "column": null} clears it)',
             )
     name = step["name"]
-    bench.check_free(name, replacing=tuple(members))  # members go away: their names are free
+    working.check_free(name, replacing=tuple(members))  # members go away: their names are free
     method = step["method"]
     values = np.column_stack([m.values for m in members])
     problem = None
@@ -109,20 +110,20 @@ def apply_combine(bench: Bench, step: dict[str, Any]) -> list[Col]:
     elif method == "difference":
         result = members[0].values - members[1].values
     elif method == "ratio":
-        result = _ratio(bench, members[0], members[1])
+        result = _ratio(working, members[0], members[1])
     else:
-        result, problem = _first_component(bench, members, name)
+        result, problem = _first_component(working, members, name)
     if problem is None:
-        check_finite(bench, members, result, f"the {method} of the group {quoted(name)}")
+        check_finite(working, members, result, f"the {method} of the group {quoted(name)}")
     out = derived(name, "numeric", result, tuple(members))
     out.problem = problem or out.problem
     first = members[0]
-    bench.replace(first, out)
+    working.replace(first, out)
     out.role = PREDICTOR
     out.on_missing = "delete_rows"
     for m in members[1:]:
-        bench.cols.remove(m)
-    for c in bench.cols:
+        working.cols.remove(m)
+    for c in working.cols:
         if c.anchor in members:
             c.anchor = out
     return [out]

@@ -9,8 +9,8 @@ from typing import Any
 
 import numpy as np
 
-from app.design.bench import RESPONSE, Bench, Col, derived
 from app.design.names import number_text, quoted
+from app.design.working import RESPONSE, Col, WorkingColumns, derived
 from app.tables.errors import InputError
 
 EPOCH = np.datetime64("1970-01-01T00:00:00", "ns")
@@ -30,7 +30,7 @@ def days_since_epoch(x: np.ndarray) -> np.ndarray:
     return (x.astype("datetime64[ns]") - EPOCH) / np.timedelta64(1, "D")
 
 
-def _parse_numbers(bench: Bench, col: Col) -> np.ndarray:
+def _parse_numbers(working: WorkingColumns, col: Col) -> np.ndarray:
     out = np.full(len(col.values), np.nan)
     for i, label in enumerate(col.values):
         if label is None:
@@ -42,7 +42,7 @@ def _parse_numbers(bench: Bench, col: Col) -> np.ndarray:
         if not np.isfinite(out[i]):
             raise InputError(
                 f"{quoted(col.name)} has the label {quoted(label)}, which is not a number",
-                bench.where(i, col),
+                working.where(i, col),
                 "Keep the column categorical and code it with indicators",
             )
     return out
@@ -52,7 +52,7 @@ def _refuse(col: Col, to: str, todo: str) -> InputError:
     return InputError(f"the {col.kind} column {quoted(col.name)} cannot become {to}", "", todo)
 
 
-def _convert(bench: Bench, col: Col, to: str) -> np.ndarray:
+def _convert(working: WorkingColumns, col: Col, to: str) -> np.ndarray:
     if to == "categorical":
         if col.kind == "numeric":
             return number_labels(col.values)
@@ -63,8 +63,8 @@ def _convert(bench: Bench, col: Col, to: str) -> np.ndarray:
         if col.kind == "boolean":
             return col.values.copy()
         if col.kind == "categorical":
-            return _parse_numbers(bench, col)
-        bench.notes.append(f"{quoted(col.name)} counts days since 1970-01-01.")
+            return _parse_numbers(working, col)
+        working.notes.append(f"{quoted(col.name)} counts days since 1970-01-01.")
         return days_since_epoch(col.values)
     if col.kind == "numeric":
         x = col.values
@@ -74,18 +74,18 @@ def _convert(bench: Bench, col: Col, to: str) -> np.ndarray:
             raise InputError(
                 f"a boolean column holds only 0 and 1, but {quoted(col.name)} is "
                 f"{number_text(x[i])}",
-                bench.where(i, col),
+                working.where(i, col),
                 "Keep it numeric, or make it categorical",
             )
         return x.copy()
     raise _refuse(col, to, "Code a categorical column with indicators instead")
 
 
-def apply_kind(bench: Bench, step: dict[str, Any]) -> list[Col]:
-    col = bench.get(step["column"])
+def apply_kind(working: WorkingColumns, step: dict[str, Any]) -> list[Col]:
+    col = working.get(step["column"])
     to = step["to"]
     if col.kind == to:
-        bench.notes.append(f"{quoted(col.name)} was already {to}; the kind step changed nothing.")
+        working.notes.append(f"{quoted(col.name)} was already {to}; the kind step changed nothing.")
         return []
     if col.role == RESPONSE and to == "categorical":
         raise InputError(
@@ -93,6 +93,6 @@ def apply_kind(bench: Bench, step: dict[str, Any]) -> list[Col]:
             "",
             'Clear the response first with {"step": "response", "column": null}',
         )
-    new = derived(col.name, to, _convert(bench, col, to), (col,))
-    bench.replace(col, new)
+    new = derived(col.name, to, _convert(working, col, to), (col,))
+    working.replace(col, new)
     return [new]

@@ -7,19 +7,19 @@ from __future__ import annotations
 
 from typing import Any
 
-from app.design.bench import DROPPED, PREDICTOR, RESPONSE, Bench, Col
 from app.design.names import level_order, quoted, suggestion
 from app.design.steps import ALL_LEVELS
+from app.design.working import DROPPED, PREDICTOR, RESPONSE, Col, WorkingColumns
 from app.tables.errors import InputError
 
 _CLEAR = '{"step": "response", "column": null}'
 
 
-def apply_response(bench: Bench, step: dict[str, Any]) -> list[Col]:
+def apply_response(working: WorkingColumns, step: dict[str, Any]) -> list[Col]:
     """Make a column the response; the previous response becomes a predictor again."""
-    current = bench.response()
+    current = working.response()
     name = step["column"]
-    new = None if name is None else bench.number_col(name, "the response")
+    new = None if name is None else working.number_col(name, "the response")
     if new is not None and new.on_missing == "drop_column":
         raise InputError(
             f"{quoted(new.name)} is set to be left out when missing; a response cannot be",
@@ -33,8 +33,8 @@ def apply_response(bench: Bench, step: dict[str, Any]) -> list[Col]:
     return []
 
 
-def apply_intercept(bench: Bench, step: dict[str, Any]) -> list[Col]:
-    bench.intercept = bool(step["include"])
+def apply_intercept(working: WorkingColumns, step: dict[str, Any]) -> list[Col]:
+    working.intercept = bool(step["include"])
     return []
 
 
@@ -47,8 +47,8 @@ def _not_response(col: Col, action: str) -> None:
         )
 
 
-def apply_drop(bench: Bench, step: dict[str, Any]) -> list[Col]:
-    col = bench.get(step["column"])
+def apply_drop(working: WorkingColumns, step: dict[str, Any]) -> list[Col]:
+    col = working.get(step["column"])
     _not_response(col, "drop")
     if col.role == DROPPED:
         raise InputError(f"{quoted(col.name)} is already dropped", "", "Remove this step")
@@ -56,8 +56,8 @@ def apply_drop(bench: Bench, step: dict[str, Any]) -> list[Col]:
     return []
 
 
-def apply_restore(bench: Bench, step: dict[str, Any]) -> list[Col]:
-    col = bench.get(step["column"])
+def apply_restore(working: WorkingColumns, step: dict[str, Any]) -> list[Col]:
+    col = working.get(step["column"])
     _not_response(col, "restore")
     if col.role != DROPPED:
         todo = "Remove this step"
@@ -78,8 +78,8 @@ def levels_of(col: Col) -> list[str]:
     return level_order(set(col.values[~col.missing()]))
 
 
-def apply_indicators(bench: Bench, step: dict[str, Any]) -> list[Col]:
-    col = bench.get(step["column"])
+def apply_indicators(working: WorkingColumns, step: dict[str, Any]) -> list[Col]:
+    col = working.get(step["column"])
     if col.kind != "categorical":
         raise InputError(
             f"indicators code categorical columns, and {quoted(col.name)} is {col.kind}",
@@ -90,7 +90,7 @@ def apply_indicators(bench: Bench, step: dict[str, Any]) -> list[Col]:
     if reference not in (None, ALL_LEVELS):
         levels = levels_of(col)
         if reference not in levels:
-            problem = bench.trouble(
+            problem = working.trouble(
                 f"{quoted(col.name)} has no level {quoted(reference)}",
                 suggestion(str(reference), levels) + f', or "{ALL_LEVELS}" to keep every level',
             )
@@ -99,8 +99,8 @@ def apply_indicators(bench: Bench, step: dict[str, Any]) -> list[Col]:
     return []
 
 
-def apply_missing(bench: Bench, step: dict[str, Any]) -> list[Col]:
-    col = bench.get(step["column"])
+def apply_missing(working: WorkingColumns, step: dict[str, Any]) -> list[Col]:
+    col = working.get(step["column"])
     if col.role == RESPONSE and step["policy"] == "drop_column":
         raise InputError(
             f"{quoted(col.name)} is the response: rows missing it are always deleted",

@@ -1,4 +1,4 @@
-"""From a finished workbench to X and y: columns used, rows kept, indicator coding.
+"""From finished working columns to X and y: columns used, rows kept, indicator coding.
 
 Builds arrays only; diagnosing them (rank, dependencies) is the core's job.
 """
@@ -10,10 +10,10 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from app.design.apply_roles import levels_of
-from app.design.bench import PREDICTOR, Bench, Col
 from app.design.design import INTERCEPT
 from app.design.names import quoted
 from app.design.steps import ALL_LEVELS
+from app.design.working import PREDICTOR, Col, WorkingColumns
 from app.tables.errors import InputError
 
 #: Values beyond this magnitude are refused: the core squares values on the way to the
@@ -26,7 +26,7 @@ LARGEST = 1e150
 SMALLEST = 1e-290
 
 
-def _check_magnitude(bench: Bench, col: Col, values: np.ndarray) -> None:
+def _check_magnitude(working: WorkingColumns, col: Col, values: np.ndarray) -> None:
     with np.errstate(invalid="ignore"):
         mags = np.abs(values[np.isfinite(values)])
         top = float(mags.max()) if mags.size else 0.0
@@ -36,7 +36,7 @@ def _check_magnitude(bench: Bench, col: Col, values: np.ndarray) -> None:
         raise InputError(
             f"{quoted(col.name)} holds no value larger than {top:g} in magnitude, too small to "
             f"compute with (below {SMALLEST:g} double precision loses digits)",
-            bench.where(i, col),
+            working.where(i, col),
             "Rescale the column (a multiply step, e.g. by 1e300), or check the values",
         )
     if big.any():
@@ -44,7 +44,7 @@ def _check_magnitude(bench: Bench, col: Col, values: np.ndarray) -> None:
         raise InputError(
             f"{quoted(col.name)} holds {values[i]:g}, too large to compute with (the analysis "
             f"squares values, and beyond {LARGEST:g} the squares overflow)",
-            bench.where(i, col),
+            working.where(i, col),
             "Rescale the column (a multiply step, e.g. by 1e-300), or check the value",
         )
 
@@ -70,13 +70,14 @@ def _missing_rows(col: Col, missing: dict[str, np.ndarray]) -> np.ndarray:
     return np.logical_or.reduce([missing[s] for s in sorted(col.sources)])
 
 
-def make_plan(bench: Bench, missing: dict[str, np.ndarray], table_order: list[str]) -> Plan:
+def make_plan(working: WorkingColumns, missing: dict[str, np.ndarray],
+              table_order: list[str]) -> Plan:
     """Decide the design's columns. `missing` holds each table column's full missing mask,
     so both passes (all rows, kept rows) take the same decisions."""
     predictors: list[Col] = []
     left_out: list[tuple[Col, int]] = []
     dates: list[Col] = []
-    for col in bench.cols:
+    for col in working.cols:
         if col.role != PREDICTOR:
             continue
         if col.kind == "date":
@@ -88,7 +89,7 @@ def make_plan(bench: Bench, missing: dict[str, np.ndarray], table_order: list[st
                 left_out.append((col, count))
                 continue
         predictors.append(col)
-    response = bench.response()
+    response = working.response()
     used: set[str] = set()
     for col in predictors + ([response] if response is not None else []):
         used |= col.sources
@@ -160,16 +161,16 @@ def _raise_problem(col: Col) -> None:
         raise InputError(col.problem)
 
 
-def assemble(bench: Bench, plan: Plan) -> Matrix:
+def assemble(working: WorkingColumns, plan: Plan) -> Matrix:
     """Build X (intercept first, then working-column order, indicators in place) and y."""
     notes: list[str] = []
     names: list[str] = []
     arrays: list[np.ndarray] = []
     groups: dict[str, list[str]] = {}
     references: dict[str, str] = {}
-    if bench.intercept:
+    if working.intercept:
         names.append(INTERCEPT)
-        arrays.append(np.ones(bench.n))
+        arrays.append(np.ones(working.n))
     for col in plan.predictors:
         _raise_problem(col)
         if col.kind == "categorical":
@@ -182,7 +183,7 @@ def assemble(bench: Bench, plan: Plan) -> Matrix:
                     references[col.name] = ref
         else:
             pairs = [(col.name, col.values.astype(float))]
-            _check_magnitude(bench, col, pairs[0][1])
+            _check_magnitude(working, col, pairs[0][1])
         for name, values in pairs:
             if name in names:
                 raise InputError(
@@ -212,6 +213,6 @@ def assemble(bench: Bench, plan: Plan) -> Matrix:
     if plan.response is not None:
         _raise_problem(plan.response)
         y = plan.response.values.astype(float)
-        _check_magnitude(bench, plan.response, y)
+        _check_magnitude(working, plan.response, y)
     X = np.column_stack(arrays).astype(np.float64, copy=False)
     return Matrix(np.ascontiguousarray(X), names, y, groups, notes, references)

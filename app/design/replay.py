@@ -23,14 +23,14 @@ from app.design.apply_roles import (
     apply_restore,
 )
 from app.design.assemble import Plan, assemble, keep_rows, make_plan
-from app.design.bench import Bench, Col
 from app.design.design import Design
 from app.design.names import quoted
 from app.design.steps import SINGLE_COLUMN
+from app.design.working import Col, WorkingColumns
 from app.tables.errors import InputError
 from app.tables.table import Table
 
-Apply = Callable[[Bench, dict[str, Any]], list[Col]]
+Apply = Callable[[WorkingColumns, dict[str, Any]], list[Col]]
 
 APPLY: dict[str, Apply] = {
     "response": apply_response,
@@ -48,26 +48,26 @@ APPLY: dict[str, Apply] = {
 
 def run_steps(
     table: Table, steps: Sequence[dict[str, Any]], rows: np.ndarray, strict: bool
-) -> Bench:
+) -> WorkingColumns:
     """Apply the steps in order to the given rows; errors name the step that failed."""
-    bench = Bench.from_table(table, rows, strict)
+    working = WorkingColumns.from_table(table, rows, strict)
     for position, step in enumerate(steps, start=1):
         try:
             # Overflow and 0/0 are caught by explicit checks that name the row; no warnings.
             with np.errstate(all="ignore"):
-                bench.made.append(APPLY[step["step"]](bench, step))
+                working.made.append(APPLY[step["step"]](working, step))
         except InputError as e:
             where = f"recipe step {position} ({step['step']})"
             raise InputError(e.what, f"{where}, {e.where}" if e.where else where, e.todo) from e
-    return bench
+    return working
 
 
 @dataclass
 class Trace:
-    """A build with what the script writer needs: the final bench and plan, the kept rows."""
+    """A build with what the script writer needs: the final working and plan, the kept rows."""
 
     design: Design
-    bench: Bench
+    working: WorkingColumns
     plan: Plan
     kept: np.ndarray
 
@@ -93,8 +93,8 @@ def trace_design(table: Table, steps: Sequence[dict[str, Any]]) -> Trace:
         raise InputError("the table has no rows", table.source, "Check the file")
     missing = {str(c): np.asarray(table.frame[c].isna(), dtype=bool) for c in table.columns}
     order = [str(c) for c in table.columns]
-    bench = run_steps(table, steps, np.arange(n), strict=True)
-    plan = make_plan(bench, missing, order)
+    working = run_steps(table, steps, np.arange(n), strict=True)
+    plan = make_plan(working, missing, order)
     kept, dropped_by = keep_rows(plan, missing, n)
     used = int(kept.sum())
     notes: list[str] = []
@@ -107,10 +107,10 @@ def trace_design(table: Table, steps: Sequence[dict[str, Any]]) -> Trace:
             f'{{"step": "missing", "column": "{worst}", "policy": "drop_column"}}',
         )
     if used < n:
-        bench = run_steps(table, steps, np.flatnonzero(kept), strict=False)
-        plan = make_plan(bench, missing, order)
+        working = run_steps(table, steps, np.flatnonzero(kept), strict=False)
+        plan = make_plan(working, missing, order)
         notes.append(_deletion_note(n, used, dropped_by))
-    matrix = assemble(bench, plan)
+    matrix = assemble(working, plan)
     design = Design(
         X=matrix.X,
         columns=matrix.columns,
@@ -121,6 +121,6 @@ def trace_design(table: Table, steps: Sequence[dict[str, Any]]) -> Trace:
         rows_total=n,
         rows_used=used,
         dropped_by=dropped_by,
-        notes=notes + bench.notes + matrix.notes,
+        notes=notes + working.notes + matrix.notes,
     )
-    return Trace(design, bench, plan, kept)
+    return Trace(design, working, plan, kept)

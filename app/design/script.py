@@ -8,12 +8,12 @@ from __future__ import annotations
 import re
 from typing import Any
 
-from app.design.bench import Col
 from app.design.design import INTERCEPT
 from app.design.names import number_text
 from app.design.recipe import Recipe
 from app.design.replay import Trace, trace_design
 from app.design.steps import describe_step
+from app.design.working import Col
 from app.tables.table import Table
 
 _HELPERS = {
@@ -150,7 +150,7 @@ def _matrix_code(trace: Trace) -> list[str]:
         for name in names
     }
     for i, name in enumerate(design.columns):
-        if i == 0 and trace.bench.intercept:
+        if i == 0 and trace.working.intercept:
             entries.append(f"    np.ones(len(data)),  # {_comment(INTERCEPT)}")
         elif name in indicator_of:
             col, level = indicator_of[name]
@@ -198,7 +198,7 @@ def recipe_to_python(recipe: Recipe, source_path: str, table: Table) -> str:
             body.append(f'{_c(name)} = data[{name!r}].to_numpy("datetime64[ns]")')
         else:
             body.append(f"{_c(name)} = data[{name!r}].to_numpy(float)")
-    for position, (step, made) in enumerate(zip(steps, trace.bench.made, strict=True), start=1):
+    for position, (step, made) in enumerate(zip(steps, trace.working.made, strict=True), start=1):
         body.append("")
         body.append(f"# Step {position}: {_comment(describe_step(step))}")
         if made and any(id(c) in needed for c in made):

@@ -1,6 +1,6 @@
 """The ledger: the recipe's working columns as names, roles and placement, without any rows.
 
-Mirrors the workbench rules of app.design (bench, assemble) on metadata only; holds no values.
+Mirrors the rules of app.design (working, assemble) on metadata only; holds no values.
 """
 
 from __future__ import annotations
@@ -9,9 +9,9 @@ from collections.abc import Iterable
 from dataclasses import dataclass, replace
 
 from app.core.workspace import CONSTANT
-from app.design.bench import DROPPED, PREDICTOR, RESPONSE
 from app.design.design import INTERCEPT
 from app.design.steps import ALL_LEVELS
+from app.design.working import DROPPED, PREDICTOR, RESPONSE
 
 
 class Rebuild(Exception):
@@ -26,7 +26,7 @@ class Rebuild(Exception):
 class Entry:
     """One working column.
 
-    key: unique within an engine's history (identity, as the workbench compares columns).
+    key: unique within an engine's history (identity, as WorkingColumns compares columns).
     held: the Workspace column holding its values on the rows used (numeric or boolean), or
         None when it has none there (missing values, a date).
     levels / level_ids: for a categorical column held without missing values, its levels in
@@ -75,7 +75,7 @@ class Ledger:
     entries: tuple[Entry, ...]
     intercept: bool = True
 
-    # ---- look-ups, as Bench.get / Bench.number_col (a failure is the rebuild's to word) ----
+    # ---- look-ups, as WorkingColumns.get / .number_col (a failure is the rebuild's to word) ----
     def get(self, name: str) -> Entry:
         for e in self.entries:
             if e.name == name:
@@ -91,13 +91,13 @@ class Ledger:
         return next(e for e in self.entries if e.key == key)
 
     def check_free(self, name: str, replacing: Iterable[Entry] = ()) -> None:
-        """As Bench.check_free: a new name may reuse only the names of what it replaces."""
+        """As WorkingColumns.check_free: a new name may reuse only the names of what it replaces."""
         gone = {e.key for e in replacing}
         _role_check(name != INTERCEPT, "the intercept's name")
         for e in self.entries:
             _role_check(e.name != name or e.key in gone, f"{name!r} already exists")
 
-    # ---- placement, as Bench.replace / Bench.insert_after ----------------------------------
+    # ---- placement, as WorkingColumns.replace / .insert_after -----------------------------
     def set(self, entry: Entry) -> Ledger:
         """The ledger with the entry of the same key replaced by `entry`."""
         return replace(self, entries=tuple(entry if e.key == entry.key else e

@@ -11,8 +11,8 @@ from typing import Any
 import numpy as np
 
 from app.core.workspace import CONSTANT
-from app.design.bench import PREDICTOR, RESPONSE
 from app.design.steps import output_name
+from app.design.working import PREDICTOR, RESPONSE
 from app.scale.ledger import Entry, Ledger, Rebuild
 from app.scale.start import held_id
 from app.scale.store import Store
@@ -39,7 +39,7 @@ class State:
 
 
 def _new_entry(state: State, name: str, parents: list[Entry]) -> Entry:
-    """As app.design.bench.derived: a numeric column inheriting sources and problems."""
+    """As app.design.working.derived: a numeric column inheriting sources and problems."""
     sources = frozenset().union(*(p.sources for p in parents))
     problem = next((p.problem for p in parents if p.problem), None)
     return Entry(key=state.next_key, name=name, kind="numeric", sources=sources,

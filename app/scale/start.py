@@ -14,10 +14,10 @@ import pandas as pd
 from app.core.reduce import block_rows, reduce_blocks, shifts_of, unshift
 from app.core.workspace import Workspace
 from app.design.apply_roles import levels_of
-from app.design.bench import Bench, Col
 from app.design.design import Design
 from app.design.recipe import Recipe
 from app.design.replay import run_steps, trace_design
+from app.design.working import Col, WorkingColumns
 from app.scale.ledger import Entry, Ledger
 from app.scale.store import Store
 from app.tables.table import Table
@@ -44,18 +44,18 @@ def _abs_max(values: np.ndarray) -> float:
     return float(np.abs(present).max()) if present.size else 0.0
 
 
-def _entries(bench: Bench, first: Bench) -> tuple[list[Entry], dict[str, np.ndarray],
-                                                   dict[str, float]]:
-    """Entries for the bench's columns, the arrays to hold, and each array's bound.
+def _entries(working: WorkingColumns, first: WorkingColumns
+             ) -> tuple[list[Entry], dict[str, np.ndarray], dict[str, float]]:
+    """Entries for the working columns, the arrays to hold, and each array's bound.
 
-    bench: the final pass (rows kept); first: the pass over all rows (the same columns in the
+    working: the final pass (rows kept); first: the pass over all rows (the same columns in the
     same order, since the steps' structure does not depend on the rows).
     """
-    key_of = {id(c): k for k, c in enumerate(bench.cols)}
+    key_of = {id(c): k for k, c in enumerate(working.cols)}
     entries: list[Entry] = []
     arrays: dict[str, np.ndarray] = {}
     bounds: dict[str, float] = {}
-    for k, (c, c1) in enumerate(zip(bench.cols, first.cols, strict=True)):
+    for k, (c, c1) in enumerate(zip(working.cols, first.cols, strict=True)):
         held, levels, level_ids = None, None, None
         if c.kind in ("numeric", "boolean") and np.all(np.isfinite(c.values)):
             held = held_id(k)
@@ -96,19 +96,19 @@ def start(table: Table, recipe: Recipe) -> Start:
     """Replay the recipe (as build_design does) and factor every column an edit may show."""
     steps = recipe.steps
     trace = trace_design(table, steps)
-    design, bench = trace.design, trace.bench
+    design, working = trace.design, trace.working
     n_all = table.n_rows
-    first = bench
+    first = working
     if design.rows_used < n_all:
         # The recipe's first pass ran on all rows; its values bound what edits meet there.
         first = run_steps(table, steps, np.arange(n_all), strict=True)
-    entries, arrays, bounds = _entries(bench, first)
+    entries, arrays, bounds = _entries(working, first)
     ids = list(arrays)
-    resp: Col | None = bench.response()
+    resp: Col | None = working.response()
     resp_id = None
     if resp is not None:
-        resp_id = entries[next(k for k, c in enumerate(bench.cols) if c is resp)].held
-    n = bench.n
+        resp_id = entries[next(k for k, c in enumerate(working.cols) if c is resp)].held
+    n = working.n
     y = arrays[resp_id] if resp_id is not None else np.zeros(n)
     held = [arrays[h] for h in ids]
     head = min(n, block_rows(len(ids) + 2))
@@ -119,7 +119,7 @@ def start(table: Table, recipe: Recipe) -> Start:
                    sum_weights=float(n))
     scale = {h: float(np.linalg.norm(T[:, 1 + i])) for i, h in enumerate(ids)}
     with_missing = frozenset(str(c) for c in table.columns if table.frame[c].isna().any())
-    ledger = Ledger(tuple(entries), intercept=bench.intercept)
+    ledger = Ledger(tuple(entries), intercept=working.intercept)
     store = Store(ws, bounds, scale)
     layout = ledger.layout(with_missing)
     store = store.shown(layout.visible, layout.response_id)

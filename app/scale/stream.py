@@ -1,20 +1,16 @@
 """Analysis of a file too big for memory: the recipe run block by block into one small factor.
 
 Holds one block of rows at a time; statistics over all kept rows come from the factor, never
-from a block. The CLI's `check --stream` calls stream_check.
+from a block; no command-line options or printing (the CLI's `check --stream` calls it).
 """
 
 from __future__ import annotations
 
-import argparse
-import json
-import sys
 import threading
 import time
 from collections.abc import Callable
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import TextIO
 
 import numpy as np
 
@@ -153,66 +149,3 @@ def _one_pass(source: Source, steps: list[dict], frozen: dict[int, Frozen], bloc
         raise InputError("The table has a header row but no data rows", source.where,
                          "Add the data below the header row")
     return total
-
-
-def stream_check(args: argparse.Namespace, *, out: TextIO | None = None,
-                 err: TextIO | None = None) -> int:
-    """`rankscope check FILE --stream`: run_check's output and exit codes, the file read block
-    by block with a progress bar on stderr."""
-    from app import cli
-    from app.core.diagnosis import diagnose_factor
-    from app.design.names import quoted, suggestion
-    from app.report.cautions import choose_cautions
-    from app.scale.stream_bar import ProgressBar
-
-    out = out or sys.stdout
-    err = err or sys.stderr
-    rules = [cli.parse_rule(t) for t in args.fail_if]
-    if args.tol is not None and not (np.isfinite(args.tol) and args.tol > 0):
-        raise InputError(f"the tolerance must be a positive number, not {args.tol}", "--tol")
-    if getattr(args, "sheet", None):
-        raise InputError("--stream reads CSV/TSV and Parquet files, which have no sheets",
-                         "--sheet", "Leave out --sheet, or leave out --stream for a workbook")
-    source = open_source(args.file)
-    if not args.recipe:
-        cli.check_names(args, source.columns)
-    steps = cli.recipe_steps(args, dict(source.kinds))
-    bar = ProgressBar(err)
-    try:
-        F, info = stream_source(source, Recipe(steps.steps), progress=bar)
-    except InputError as e:
-        raise steps.relabel(e) from e
-    finally:
-        bar.close()
-    for name in args.keep:
-        if name not in info.columns:
-            raise InputError(f"the design has no column named {quoted(name)}", "--keep",
-                             suggestion(name, info.columns))
-    diagnosis = diagnose_factor(F, response=info.response, groups=info.groups,
-                                keep=list(args.keep) or None, tol=args.tol).to_dict()
-    checks = cli.evaluate(rules, diagnosis)
-    design = info.design()
-    if args.json:
-        doc = dict(diagnosis)
-        doc["source"] = info.source
-        doc["design"] = {
-            "rows_total": design.rows_total, "rows_used": design.rows_used,
-            "rows_dropped": design.rows_total - design.rows_used,
-            "dropped_by": dict(design.dropped_by), "response": design.response,
-            "intercept": design.intercept,
-            "groups": {g: list(c) for g, c in design.groups.items()},
-            "notes": list(design.notes) + list(info.table_notes),
-        }
-        doc["cautions"] = [c.to_dict() for c in choose_cautions(diagnosis)]
-        doc["checks"] = checks
-        doc["stream"] = {"passes": info.passes, "blocks": info.blocks,
-                         "bytes": info.bytes_total, "seconds": round(info.seconds, 3)}
-        out.write(json.dumps(cli.json_ready(doc), allow_nan=False, indent=2) + "\n")
-    else:
-        from app.report.text import render_text
-
-        out.write(render_text(diagnosis, design, source=info.source, notes=info.table_notes))
-    crossed = [c for c in checks if c["crossed"]]
-    for c in crossed:
-        print(f"rankscope: --fail-if {c['rule']} crossed: {c['detail']}", file=err)
-    return cli.EXIT_CROSSED if crossed else cli.EXIT_OK

@@ -13,10 +13,10 @@ from app.core.factor import Factorization
 from app.core.reduce import unshift, upper_sign_fixed
 from app.core.workspace import CONSTANT, Workspace
 from app.design.assemble import coded_levels
-from app.design.bench import PREDICTOR, RESPONSE
 from app.design.design import INTERCEPT
 from app.design.names import level_order, number_text, quoted, suggestion
 from app.design.steps import ALL_LEVELS
+from app.design.working import PREDICTOR, RESPONSE
 from app.scale.stream_forms import DEFERRED, Entry, Form, Frozen, Key, Tracker
 from app.scale.stream_partial import Partial
 from app.tables.errors import InputError

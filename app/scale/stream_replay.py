@@ -14,10 +14,10 @@ from app.design.apply_columns import apply_single, check_finite, place
 from app.design.apply_groups import apply_combine, apply_product
 from app.design.apply_kind import apply_kind
 from app.design.apply_roles import apply_indicators
-from app.design.bench import PREDICTOR, RESPONSE, Bench, Col, derived
 from app.design.names import quoted
 from app.design.replay import APPLY
 from app.design.steps import ALL_LEVELS, output_name
+from app.design.working import PREDICTOR, RESPONSE, Col, WorkingColumns, derived
 from app.scale.stream_forms import (
     DEFERRED,
     REAL,
@@ -67,7 +67,7 @@ class Replay:
                 where = f"recipe step {pos} ({step['step']})"
                 raise InputError(e.what, f"{where}, {e.where}" if e.where else where,
                                  e.todo) from e
-            run.bench.made.append(made)
+            run.working.made.append(made)
             for j, c in enumerate(made):
                 run.key[c] = ("s", pos, j)
                 run.col_of[("s", pos, j)] = c
@@ -82,10 +82,10 @@ class _Run:
         m = table.n_rows
         self.table = table
         self.frozen = frozen
-        self.bench = Bench.from_table(table, np.arange(m), strict=True)
-        self.bench.rows = start + np.arange(m)  # messages name file rows, not block rows
-        self.key: dict[Col, Key] = {c: ("t", c.name) for c in self.bench.cols}
-        self.col_of: dict[Key, Col] = {("t", c.name): c for c in self.bench.cols}
+        self.working = WorkingColumns.from_table(table, np.arange(m), strict=True)
+        self.working.rows = start + np.arange(m)  # messages name file rows, not block rows
+        self.key: dict[Col, Key] = {c: ("t", c.name) for c in self.working.cols}
+        self.col_of: dict[Key, Col] = {("t", c.name): c for c in self.working.cols}
         self.state: dict[Col, str] = {}
         self.forms: dict[Key, Form] = {}
         self.pending: list[tuple[Col, str, tuple[Col, ...], float]] = []
@@ -140,7 +140,7 @@ class _Run:
     # ---- steps ---------------------------------------------------------------------------
     def apply(self, pos: int, step: dict[str, Any]) -> list[Col]:
         kind = step["step"]
-        b = self.bench
+        b = self.working
         if kind in ROLE_STEPS:
             return APPLY[kind](b, step)
         if kind == "indicators":
@@ -182,8 +182,8 @@ class _Run:
 
     def _indicators(self, pos: int, step: dict[str, Any]) -> list[Col]:
         name = step["column"]
-        apply_indicators(self.bench, {"step": "indicators", "column": name})  # kind check
-        col = self.bench.get(name)
+        apply_indicators(self.working, {"step": "indicators", "column": name})  # kind check
+        col = self.working.get(name)
         reference = step.get("reference")
         col.reference = reference
         if reference not in (None, ALL_LEVELS) and self.st(col) == REAL:
@@ -195,17 +195,17 @@ class _Run:
 
     def _stat(self, pos: int, step: dict[str, Any]) -> list[Col]:
         kind = step["step"]
-        col = self.bench.number_col(step["column"], f"the {kind} step")
+        col = self.working.number_col(step["column"], f"the {kind} step")
         state = self.st(col)
         name = output_name(step)
         self.track(pos, kind, [col], name)
         if state == REAL and pos in self.frozen:
             values = self.frozen[pos].apply(col.values[:, None])
-            check_finite(self.bench, [col], values, f"the {kind} of {quoted(col.name)}")
+            check_finite(self.working, [col], values, f"the {kind} of {quoted(col.name)}")
         else:
             values = _surrogate(col)
         out = derived(name, "numeric", values, (col,))
-        place(self.bench, col, out, bool(step.get("keep", False)))
+        place(self.working, col, out, bool(step.get("keep", False)))
         self.stat_of[out] = pos
         if state == TAINTED:
             self.state[out] = TAINTED
@@ -215,28 +215,28 @@ class _Run:
 
     def _product(self, step: dict[str, Any]) -> list[Col]:
         a_name, b_name = step["columns"]
-        a = self.bench.number_col(a_name, "a product")
-        b = self.bench.number_col(b_name, "a product")
+        a = self.working.number_col(a_name, "a product")
+        b = self.working.number_col(b_name, "a product")
         if self.worst([a, b]) == REAL:
-            return apply_product(self.bench, step)
+            return apply_product(self.working, step)
         gone = a.missing() | b.missing()
         out = derived(step["name"], "numeric", np.where(gone, np.nan, 0.0),
                       (a,) if a is b else (a, b))
-        self.bench.check_free(out.name)
-        self.bench.insert_after(a, out)
+        self.working.check_free(out.name)
+        self.working.insert_after(a, out)
         self.state[out] = TAINTED
         return [out]
 
     def _combine(self, pos: int, step: dict[str, Any]) -> list[Col]:
         method = step["method"]
-        members = [self.bench.number_col(n, "combine") for n in step["columns"]]
+        members = [self.working.number_col(n, "combine") for n in step["columns"]]
         state = self.worst(members)
         if method == "first_component":
             self.track(pos, "first_component", members, step["name"])
             frozen = state == REAL and pos in self.frozen
             X = np.column_stack([m.values for m in members])
             # The recipe's own checks and placement, on a mean that cannot fail the component.
-            out = apply_combine(self.bench, {**step, "method": "mean"})
+            out = apply_combine(self.working, {**step, "method": "mean"})
             self.stat_of[out[0]] = pos
             if frozen:
                 out[0].values = self.frozen[pos].apply(X)
@@ -248,13 +248,13 @@ class _Run:
                     self.hold_back(out[0], "first_component", members)
             return out
         if state == REAL:
-            return apply_combine(self.bench, step)
+            return apply_combine(self.working, step)
         if method == "ratio":
             # Placement and checks of a two-member combine on stand-in values.
-            out = apply_combine(self.bench, {**step, "method": "difference"})
+            out = apply_combine(self.working, {**step, "method": "difference"})
             self.state[out[0]] = TAINTED
             return out
-        out = apply_combine(self.bench, step)
+        out = apply_combine(self.working, step)
         if state == TAINTED:
             self.state[out[0]] = TAINTED
         else:
@@ -264,7 +264,7 @@ class _Run:
     # ---- the block's contribution ---------------------------------------------------------
     def entries(self) -> list[Entry]:
         out = []
-        for c in self.bench.cols:
+        for c in self.working.cols:
             if c.role in (PREDICTOR, RESPONSE):
                 out.append(Entry(self.key[c], c.name, c.kind, c.role, c.on_missing, c.reference,
                                  c.sources, self.st(c), self.upstream(c)))
@@ -319,7 +319,7 @@ class _Run:
         missing = {str(c): np.asarray(table.frame[c].isna(), dtype=bool) for c in table.columns}
         order = [str(c) for c in table.columns]
         entries = self.entries()
-        by_key = {self.key[c]: c for c in self.bench.cols}
+        by_key = {self.key[c]: c for c in self.working.cols}
         used: list[Entry] = []
         missing_in: dict[Key, int] = {}
         for e in entries:
@@ -369,8 +369,8 @@ class _Run:
             tr.see(np.column_stack([c.values[kept] for c in cols]))
             seen_kept[pos] = tr
         shape = Shape(
-            entries=tuple(entries), intercept=self.bench.intercept, forms=dict(self.forms),
-            wants=frozenset(wants), notes=tuple(self.bench.notes), order=tuple(order),
+            entries=tuple(entries), intercept=self.working.intercept, forms=dict(self.forms),
+            wants=frozenset(wants), notes=tuple(self.working.notes), order=tuple(order),
             stats=dict(self.stats), indicators=tuple(self.indicator_steps),
         )
         return Partial.from_block(

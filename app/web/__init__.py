@@ -1,4 +1,4 @@
-"""The local inspection web app: FastAPI routes, session state, rendering of core results.
+"""The local web app: its FastAPI app, serving and analyst; routes/, access/, live/, rendering/.
 
 No linear algebra here: every screen is a view of a Diagnosis from app.core.
 """

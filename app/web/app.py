@@ -1,4 +1,4 @@
-"""The FastAPI application: wiring of the session store, the workbench, access, the live feed,
+"""The FastAPI application: wiring of the session store, the analyst, access, the live feed,
 the routes and the assets. Builds the app object only; serving lives in server.py.
 """
 
@@ -19,18 +19,18 @@ from starlette.exceptions import HTTPException as StarletteHTTPException
 
 from app.store import SessionNotFound, Store
 from app.tables.errors import InputError
-from app.web import api, assets, downloads, formulas, insight_routes, pages, sessions
-from app.web.access import AccessGate
-from app.web.bodies import safe_text
-from app.web.bodysize import BodyLimit
+from app.web.access.bodies import safe_text
+from app.web.access.bodysize import BodyLimit
+from app.web.access.gate import AccessGate
+from app.web.access.guard import DEFAULT_HOSTS, Guard
+from app.web.access.lanes import RequestThreads
+from app.web.access.limits import Limits
+from app.web.analyst import Analyst, UnknownSession
 from app.web.budget import AnalysisTooSlow, Budget
-from app.web.guard import DEFAULT_HOSTS, Guard
-from app.web.lanes import RequestThreads
-from app.web.limits import Limits
-from app.web.live import Hub
-from app.web.render import STATIC, render
+from app.web.live.feed import Hub
+from app.web.rendering.render import STATIC, render
+from app.web.routes import api, assets, downloads, formulas, insight, pages, sessions
 from app.web.stored import StoredSessions
-from app.web.workbench import UnknownSession, Workbench
 
 GONE = ("There is no session at this address: it may have been deleted, or the link may be "
         "incomplete.")
@@ -68,7 +68,7 @@ def _throwaway_store(app: FastAPI) -> Store:
 
 def create_app(store: Store | None = None, *, share: bool = False,
                public_url: str | None = None,
-               bench: type[Workbench] = Workbench,
+               analyst: type[Analyst] = Analyst,
                allowed_hosts: Collection[str] | None = None,
                limits: Limits | None = None) -> FastAPI:
     """A new app on the given session store (default: a throwaway one).
@@ -78,7 +78,7 @@ def create_app(store: Store | None = None, *, share: bool = False,
     public_url: the address others reach this server by, used in share links (default:
     the address of the request asking for them).
     app.state.owner_key opens the start page and every session when sharing.
-    bench: the Workbench class (a ReducedBench when serving a dataset reduced on Dask).
+    analyst: the Analyst class (a ReducedAnalyst when serving a dataset reduced on Dask).
     allowed_hosts: the Host header values answered ("name:port", or "name" for any port);
     default: the loopback names and Starlette's "testserver" on any port, and public_url's
     address. server.run sets app.state.allowed_hosts from the address it serves on.
@@ -88,9 +88,9 @@ def create_app(store: Store | None = None, *, share: bool = False,
     app = FastAPI(title="rankscope", docs_url=None, redoc_url=None, openapi_url=None)
     db = store if store is not None else _throwaway_store(app)
     app.state.sessions = StoredSessions(db)
-    app.state.bench = bench(app.state.sessions)
+    app.state.analyst = analyst(app.state.sessions)
     app.state.limits = limits = limits or Limits()
-    app.state.bench.budget = Budget(limits.analysis_seconds, limits.workers)
+    app.state.analyst.budget = Budget(limits.analysis_seconds, limits.workers)
     app.state.live = Hub(app.state.sessions.stamp)
     app.state.share = share
     app.state.public_url = public_url
@@ -99,7 +99,7 @@ def create_app(store: Store | None = None, *, share: bool = False,
         allowed_hosts = DEFAULT_HOSTS | ({urlsplit(public_url).netloc.lower()} if public_url
                                          else set())
     app.state.allowed_hosts = frozenset(allowed_hosts)
-    app.add_middleware(RequestThreads)  # a few requests at a time, in turn (see lanes.py)
+    app.add_middleware(RequestThreads)  # a few requests at a time, in turn (see access/lanes.py)
     app.add_middleware(BodyLimit, limit=limits.max_upload_bytes,
                        limit_text=limits.upload_text())
     app.add_middleware(AccessGate, access=app.state.sessions.access, share=share,
@@ -112,7 +112,7 @@ def create_app(store: Store | None = None, *, share: bool = False,
     app.include_router(assets.router)
     app.include_router(pages.router)
     app.include_router(api.router)
-    app.include_router(insight_routes.router)
+    app.include_router(insight.router)
     app.include_router(sessions.router)
     app.include_router(formulas.router)
     app.include_router(downloads.router)

@@ -13,7 +13,7 @@ from app.core.factor import factorize
 from app.design.replay import trace_design
 from app.report.remedies import remedies_of
 from app.tables.table import Table
-from app.web.workbench_types import Settings
+from app.web.analysis import Settings
 
 #: Values shown per listed row: the columns of the measure, at most this many.
 ROW_VALUES = 8

@@ -1,4 +1,4 @@
-"""How many recent analyses and edit engines the Workbench keeps: by their size in design
+"""How many recent analyses and edit engines the Analyst keeps: by their size in design
 columns, not by their number, so many sessions of a small table all stay warm.
 
 Pure bookkeeping on an OrderedDict; computes and analyses nothing.

@@ -11,9 +11,9 @@ from dataclasses import dataclass
 from app.report.export import import_recipe
 from app.store import Conflict
 from app.tables.errors import InputError
-from app.web.bodies import sound_text
+from app.web.access.bodies import sound_text
+from app.web.analyst import Analyst
 from app.web.state import Change
-from app.web.workbench import Workbench
 
 #: Room left in a change id (at most 100 characters) for ":<step number>".
 MAX_IMPORT_ID = 80
@@ -30,7 +30,7 @@ class Imported:
     conflict: bool = False
 
 
-def import_steps(bench: Workbench, session_id: str, data: bytes, source: str,
+def import_steps(analyst: Analyst, session_id: str, data: bytes, source: str,
                  base_version: int | None, import_id: str | None) -> Imported:
     """Add the file's steps, in order, as changes made at base_version. Each step gets the
     change id "<import_id>:<n>", so a retried import saves nothing twice. When the session
@@ -40,7 +40,7 @@ def import_steps(bench: Workbench, session_id: str, data: bytes, source: str,
                                   or not 0 < len(import_id) <= MAX_IMPORT_ID):
         raise InputError(f"an import id is text of 1 to {MAX_IMPORT_ID} characters",
                          "import id", "Send a new random id with each import")
-    session = bench.session(session_id)
+    session = analyst.session(session_id)
     steps = list(import_recipe(data, session.table, source).steps)
     sound_text(steps, source)
     if not steps:
@@ -51,12 +51,12 @@ def import_steps(bench: Workbench, session_id: str, data: bytes, source: str,
         candidate = session
         for step in steps:
             candidate = candidate.with_change(Change("step", step))
-        bench.current(candidate)
+        analyst.current(candidate)
     import_id = import_id or secrets.token_urlsafe(12)
     saved = 0
     for n, step in enumerate(steps):
         try:
-            out = bench.store.change(session_id, base, "step", step, f"{import_id}:{n}")
+            out = analyst.store.change(session_id, base, "step", step, f"{import_id}:{n}")
         except InputError as e:
             if saved == 0:
                 raise

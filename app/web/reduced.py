@@ -10,8 +10,8 @@ from dataclasses import dataclass
 from app.core.diagnosis import diagnose_factor
 from app.core.factor import Factorization
 from app.scale.stream import StreamInfo
+from app.web.analysis import Analysis, Settings, WorkingColumn
 from app.web.reduced_steps import Folded, fold
-from app.web.workbench_types import Analysis, Settings, WorkingColumn
 
 #: What the page says about everything a factor without rows cannot give.
 NO_ROWS_NOTE = ("Reduced without holding the rows: this analysis comes from the dataset's "

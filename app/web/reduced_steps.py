@@ -11,11 +11,11 @@ import numpy as np
 
 from app.core.factor import Factorization
 from app.core.workspace import Workspace
-from app.design.bench import DROPPED, PREDICTOR, RESPONSE, Bench, Col
 from app.design.design import INTERCEPT
 from app.design.names import quoted
 from app.design.recipe import Recipe
 from app.design.steps import ALL_LEVELS, output_name
+from app.design.working import DROPPED, PREDICTOR, RESPONSE, Col, WorkingColumns
 from app.scale.ledger import Entry, Layout, Ledger, Rebuild
 from app.scale.linear import State, apply_linear
 from app.scale.start import held_id
@@ -112,10 +112,10 @@ def _start(reduced: Reduced) -> tuple[State, frozenset[str]]:
     return state, missing
 
 
-def _bench(led: Ledger) -> Bench:
-    """A bench without rows mirroring the ledger, for the recipe's own lookups and messages."""
+def _working(led: Ledger) -> WorkingColumns:
+    """A working without rows mirroring the ledger, for the recipe's own lookups and messages."""
     cols = [Col(e.name, e.kind, np.empty(0), e.sources, role=e.role) for e in led.entries]
-    return Bench(cols, np.empty(0, dtype=int), "", intercept=led.intercept)
+    return WorkingColumns(cols, np.empty(0, dtype=int), "", intercept=led.intercept)
 
 
 def _check(led: Ledger, step: dict[str, Any], where: str) -> None:
@@ -123,10 +123,10 @@ def _check(led: Ledger, step: dict[str, Any], where: str) -> None:
     kind = step["step"]
     if kind not in FACTOR_STEPS:
         raise refused(f"recipe step {kind!r}")
-    bench = _bench(led)
+    working = _working(led)
     try:
         if kind in ("drop", "restore"):
-            role = bench.get(step["column"]).role
+            role = working.get(step["column"]).role
             if kind == "drop" and role != PREDICTOR:
                 raise InputError(f"{quoted(step['column'])} is not a predictor of this design",
                                  "", "Pick one of the predictors")
@@ -136,15 +136,15 @@ def _check(led: Ledger, step: dict[str, Any], where: str) -> None:
         elif kind == "combine":
             if step["method"] not in FACTOR_COMBINE:
                 raise refused(f"combine by {step['method']}")
-            members = tuple(bench.number_col(n, "combine") for n in step["columns"])
+            members = tuple(working.number_col(n, "combine") for n in step["columns"])
             if any(m.role == RESPONSE for m in members):
                 raise InputError("the response cannot be combined into a predictor", "",
                                  "Combine predictors only")
-            bench.check_free(step["name"], replacing=members)
+            working.check_free(step["name"], replacing=members)
         elif kind != "intercept":
-            col = bench.number_col(step["column"], f"the {kind} step")
+            col = working.number_col(step["column"], f"the {kind} step")
             keep = bool(step.get("keep", False))
-            bench.check_free(output_name(step), replacing=() if keep else (col,))
+            working.check_free(output_name(step), replacing=() if keep else (col,))
     except InputError as e:
         raise InputError(e.what, e.where or where, e.todo) from None
 

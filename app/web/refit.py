@@ -13,13 +13,13 @@ from app.core import diagnose
 from app.core.correlation import spearman
 from app.core.diagnosis import spearman_rows
 from app.design.apply_roles import levels_of
-from app.design.bench import DROPPED, PREDICTOR, RESPONSE
 from app.design.design import Design
 from app.design.recipe import build_design
 from app.design.replay import trace_design
+from app.design.working import DROPPED, PREDICTOR, RESPONSE
 from app.scale.edits import EditEngine
 from app.tables.table import Table
-from app.web.workbench_types import LEVEL_MENU_LIMIT, Analysis, Settings, WorkingColumn
+from app.web.analysis import LEVEL_MENU_LIMIT, Analysis, Settings, WorkingColumn
 
 #: Ids of a pair of held columns -> their Spearman correlation on the rows used.
 Pairs = dict[tuple[str, str], float]
@@ -58,14 +58,14 @@ def _levels(table: Table, settings: Settings, engine: EditEngine) -> dict[int, l
     cats = [e for e in engine.ledger.entries if e.kind == "categorical"]
     out = {e.key: _menu(list(e.levels)) for e in cats if e.levels is not None}
     if len(out) < len(cats):
-        cols = trace_design(table, list(settings.recipe)).bench.cols
-        for e in cats:  # ledger keys are positions on the bench of a build (app.scale.start)
+        cols = trace_design(table, list(settings.recipe)).working.cols
+        for e in cats:  # ledger keys are positions on the analyst of a build (app.scale.start)
             out.setdefault(e.key, _menu(levels_of(cols[e.key])))
     return out
 
 
 def working(held: Held) -> list[WorkingColumn]:
-    """The workbench columns the controls need, from the engine's ledger."""
+    """The working columns the controls need, from the engine's ledger."""
     return [WorkingColumn(e.name, e.kind, ROLE_NAMES[e.role], e.reference,
                           held.levels.get(e.key) if e.kind == "categorical" else None)
             for e in held.engine.ledger.entries]

@@ -18,10 +18,10 @@ import uvicorn
 from app.store import Store, default_root
 from app.store.records import Created
 from app.tables.read import read_table
+from app.web.access.guard import hosts_for
+from app.web.access.limits import Limits
+from app.web.access.links import link
 from app.web.app import create_app
-from app.web.guard import hosts_for
-from app.web.limits import Limits
-from app.web.links import link
 from app.web.state import Session
 
 #: Seconds a stopping server waits for open requests; live feeds never end on their own
@@ -128,7 +128,7 @@ def run(path: str | os.PathLike | None, host: str = "127.0.0.1", port: int = 876
         lines.append(f"  your start page:  {start} (keep it to yourself: it opens every "
                      "session)")
     if data is not None and table is not None:
-        session, made = app.state.bench.start(data, table.source, table)
+        session, made = app.state.analyst.start(data, table.source, table)
     if engine == "stream":
         start = f"{base}/reducing" + (f"?t={app.state.owner_key}" if share else "")
     if made is not None:

@@ -12,10 +12,10 @@ from app.store import Applied, Conflict, Created, SessionInfo, SessionNotFound, 
 from app.store import Change as StoredChange
 from app.store.store import MAX_TITLE
 from app.tables.table import Table
-from app.web import links
+from app.web.access import links
 from app.web.state import Change, PinnedFit, Session
 
-#: The settings key that holds the session's sealed links (see links.py).
+#: The settings key that holds the session's sealed links (see access/links.py).
 SEALED = "sealed_links"
 
 

@@ -19,9 +19,9 @@ from app.scale.stream import BLOCK_ROWS, Cancelled, stream_source
 from app.scale.stream_source import open_source
 from app.store.records import Created
 from app.tables.errors import InputError
-from app.web import reducing
 from app.web.reduced import Reduced
 from app.web.reduced_app import create_reduced_app, start_reduced
+from app.web.routes import reducing
 from app.web.state import Session
 
 log = logging.getLogger(__name__)

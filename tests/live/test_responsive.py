@@ -19,9 +19,9 @@ import httpx
 import pytest
 import uvicorn
 
+from app.web.access.limits import Limits
+from app.web.analyst import Analyst
 from app.web.app import create_app
-from app.web.limits import Limits
-from app.web.workbench import Workbench
 from tests.web.conftest import to_csv, units_table
 
 BUDGET = 2.0
@@ -34,7 +34,7 @@ def free_port() -> int:
         return int(s.getsockname()[1])
 
 
-class BusyBench(Workbench):
+class BusyAnalyst(Analyst):
     """Analyses with recipe steps spin for `seconds` first."""
 
     seconds = 4.0
@@ -68,7 +68,7 @@ def serving(app) -> Iterator[str]:
 
 @pytest.fixture()
 def base() -> Iterator[str]:
-    with serving(create_app(bench=BusyBench,
+    with serving(create_app(analyst=BusyAnalyst,
                             limits=replace(Limits(), analysis_seconds=BUDGET))) as url:
         yield url
 
@@ -108,7 +108,7 @@ def test_light_requests_answer_while_an_analysis_runs(base: str) -> None:
         assert BUDGET - 0.2 < slow["seconds"] < BUDGET + 1.5
         assert f"took longer than {BUDGET:g} s" in slow["body"]["error"]
         assert client.get(f"/api/s/{sid}/history").json()["changes"] == []
-        time.sleep(BusyBench.seconds - BUDGET + 0.5)  # the analysis ends and is kept
+        time.sleep(BusyAnalyst.seconds - BUDGET + 0.5)  # the analysis ends and is kept
         t0 = time.monotonic()
         answer = client.post(f"/api/s/{sid}/changes?html=0", json=change)
         assert answer.status_code == 200, answer.text

@@ -16,8 +16,8 @@ from fastapi.testclient import TestClient
 
 from app.tables.errors import InputError
 from app.tables.read import read_bytes, read_table
+from app.web.access.limits import Limits
 from app.web.app import create_app
-from app.web.limits import Limits
 from tests.data.hostile import make_corpus
 
 CORPUS = make_corpus.HERE

@@ -19,10 +19,10 @@ import pytest
 from fastapi.testclient import TestClient
 
 from app.cli import build_parser, main, serve_limits
+from app.web.access.limits import MB, Limits
+from app.web.analyst import Analyst
 from app.web.app import create_app
 from app.web.budget import AnalysisTooSlow, Budget
-from app.web.limits import MB, Limits
-from app.web.workbench import Workbench
 from tests.web.conftest import to_csv, units_table
 
 SMALL = Limits(max_upload_bytes=5_000, max_rows=50, max_columns=4, analysis_seconds=None)
@@ -125,7 +125,7 @@ def test_excel_and_parquet_limits() -> None:
     assert r.status_code == 400 and "6 columns, more than the limit of 4" in r.json()["error"]
 
 
-class SlowBench(Workbench):
+class SlowAnalyst(Analyst):
     """Analyses with recipe steps take `delay` seconds more (a big table, as it were)."""
 
     delay = 1.5
@@ -140,8 +140,8 @@ class SlowBench(Workbench):
 
 @pytest.fixture()
 def slow() -> TestClient:
-    SlowBench.started = 0
-    return TestClient(create_app(bench=SlowBench, limits=replace(Limits(),
+    SlowAnalyst.started = 0
+    return TestClient(create_app(analyst=SlowAnalyst, limits=replace(Limits(),
                                                                  analysis_seconds=0.3)))
 
 
@@ -161,12 +161,12 @@ def test_analysis_past_budget_answers_503_saves_nothing_and_retry_is_instant(slo
     # A retry while it still runs waits for the same analysis instead of starting another.
     again = slow.post(f"/api/s/{sid}/changes", json=change)
     assert again.status_code in (200, 503)
-    time.sleep(SlowBench.delay + 0.3)  # the analysis goes on and is kept
+    time.sleep(SlowAnalyst.delay + 0.3)  # the analysis goes on and is kept
     t0 = time.monotonic()
     r = slow.post(f"/api/s/{sid}/changes", json=change)
     assert r.status_code == 200, r.text
     assert time.monotonic() - t0 < 1.0
-    assert SlowBench.started == 1
+    assert SlowAnalyst.started == 1
     history = slow.get(f"/api/s/{sid}/history").json()
     assert [c["payload"] for c in history["changes"]] == [change["payload"]]
 
@@ -176,17 +176,17 @@ def test_page_past_budget_is_a_503_page(slow) -> None:
     ok = slow.post(f"/api/s/{sid}/changes?html=0", json={
         "kind": "ridge", "payload": {"penalty": 1.0}})
     assert ok.status_code == 200  # no recipe steps: not slow
-    bench = slow.app.state.bench
-    bench.budget = Budget(0.2, 2)
+    analyst = slow.app.state.analyst
+    analyst.budget = Budget(0.2, 2)
     r = slow.post(f"/api/s/{sid}/changes", json={
         "kind": "step", "payload": {"step": "response", "column": "load"}})
     assert r.status_code == 503
-    time.sleep(SlowBench.delay + 0.3)
+    time.sleep(SlowAnalyst.delay + 0.3)
     # Saved now (instant), then the cache is emptied: the page's analysis is slow again.
     assert slow.post(f"/api/s/{sid}/changes?html=0", json={
         "kind": "step", "payload": {"step": "response", "column": "load"}}).status_code == 200
-    bench._cache.clear()
-    bench._engines.clear()
+    analyst._cache.clear()
+    analyst._engines.clear()
     page = slow.get(f"/s/{sid}/inspect")
     assert page.status_code == 503
     assert "took longer than 0.2 s" in page.text

@@ -1,4 +1,4 @@
-"""The Workbench's cache of recent analyses: kept by weight with a floor on their number, least
+"""The Analyst's cache of recent analyses: kept by weight with a floor on their number, least
 recently used dropped first, its running total equal to the sum of what it holds.
 
 Reference: the weights summed by hand over the entries left.

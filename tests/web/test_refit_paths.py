@@ -14,7 +14,7 @@ from fastapi.testclient import TestClient
 
 from app.core.diagnosis import Diagnosis
 from app.design.recipe import build_design
-from app.web.workbench import Analysis, analyse
+from app.web.analyst import Analysis, analyse
 from tests.scale.compare import assert_same, close
 from tests.web.conftest import step, to_csv
 
@@ -27,9 +27,9 @@ def units_of(table, settings) -> dict[str, float]:
 
 
 def check(client: TestClient, sid: str, table) -> Analysis:
-    bench = client.app.state.bench
-    session = bench.session(sid)
-    got = bench.current(session)
+    analyst = client.app.state.analyst
+    session = analyst.session(sid)
+    got = analyst.current(session)
     # reference: the from-scratch replay of the same settings on the rows
     ref = analyse(session.table, got.settings)
     a, b = got.diagnosis, ref.diagnosis
@@ -145,8 +145,8 @@ def test_spearman_on_request_is_the_rows(client, sid, table) -> None:
     from scipy.stats import spearmanr
 
     step(client, sid, {"step": "center", "column": "hours"})
-    bench = client.app.state.bench
-    got = bench.current(bench.session(sid))
+    analyst = client.app.state.analyst
+    got = analyst.current(analyst.session(sid))
     assert got.path == "factor" and got.diagnosis["correlations"]["spearman"] is None
     figs = client.get(f"/api/s/{sid}/figures").json()
     assert figs["heatmap-spearman"] is None and figs["heatmap-pearson"] is not None

@@ -1,0 +1,88 @@
+"""Load driver: a real rankscope server in a child process on loopback, N virtual users
+uploading, opening and editing the demo table at once for a bounded time; prints one table.
+
+    python -m app.benchmarks.load [--sessions 20] [--seconds 30] [--think 0]
+
+Exit code 1 when any request failed (anything but 2xx or an expected 409, or no answer).
+"""
+
+from __future__ import annotations
+
+import argparse
+import os
+import platform
+import sys
+import tempfile
+import threading
+import time
+from dataclasses import dataclass
+from pathlib import Path
+
+from app.benchmarks.load_stats import Row, summarize, table_text
+from app.benchmarks.load_user import DEMO, Recorder, guarded_user
+from app.web.spawn import LiveServer
+
+
+@dataclass(frozen=True)
+class Result:
+    rows: list[Row]
+    failures: list[str]
+    wall_seconds: float
+
+    @property
+    def errors(self) -> int:
+        return self.rows[-1].errors
+
+
+def drive(url: str, sessions: int, seconds: float, think: float = 0.0) -> Result:
+    """Run `sessions` virtual users against the server at url for `seconds` (requests in
+    flight at the end are waited for and counted)."""
+    table = DEMO.read_bytes()
+    rec = Recorder()
+    deadline = time.monotonic() + seconds
+    users = [threading.Thread(target=guarded_user, args=(url, f"u{k}", table, deadline, rec,
+                                                         think), daemon=True)
+             for k in range(sessions)]
+    start = time.perf_counter()
+    for user in users:
+        user.start()
+    for user in users:
+        user.join()
+    wall = time.perf_counter() - start
+    return Result(summarize(rec.samples, wall), rec.failures, wall)
+
+
+def run(sessions: int, seconds: float, think: float = 0.0) -> Result:
+    """drive() against a fresh server on a throwaway data folder."""
+    with tempfile.TemporaryDirectory(prefix="rankscope-load-") as folder, \
+            LiveServer(Path(folder) / "data") as server:
+        return drive(server.url, sessions, seconds, think)
+
+
+def machine() -> str:
+    load = ", ".join(f"{x:.2f}" for x in os.getloadavg())
+    return (f"{platform.machine()} {platform.system()}, {os.cpu_count()} cores, "
+            f"load average {load}")
+
+
+def main(argv: list[str] | None = None) -> int:
+    ap = argparse.ArgumentParser(prog="python -m app.benchmarks.load", description=__doc__.split(
+        "\n")[0])
+    ap.add_argument("--sessions", type=int, default=20, help="concurrent virtual users")
+    ap.add_argument("--seconds", type=float, default=30.0, help="how long they edit")
+    ap.add_argument("--think", type=float, default=0.0,
+                    help="pause before each request, seconds (default 0: flat out)")
+    args = ap.parse_args(argv)
+    print(f"machine: {machine()} at start", flush=True)
+    print(f"load: {args.sessions} sessions on {DEMO.name} for {args.seconds:g} s, think "
+          f"{args.think:g} s; server: python -m app.cli serve on 127.0.0.1", flush=True)
+    result = run(args.sessions, args.seconds, args.think)
+    print(f"measured over {result.wall_seconds:.1f} s; machine at end: {machine()}")
+    print(table_text(result.rows))
+    for failure in result.failures:
+        print(f"  failed: {failure}")
+    return 1 if result.errors else 0
+
+
+if __name__ == "__main__":
+    sys.exit(main())

@@ -1,0 +1,94 @@
+"""Read benchmark: read_table against pandas.read_csv (default options) on the same CSV file.
+
+    python -m app.benchmarks.read [--mb 100] [--repeat 3]
+
+Writes a CSV of about --mb MB into a temporary folder (6 float columns at full precision, 2
+integer columns, 3 text columns with 3-50 levels, a yes/no column, about 1% empty cells in one
+float column), then times both readers on it alternately and prints the ratio of their best
+times (pandas / read_table: above 1 means read_table is faster). Timings depend on the machine
+and on what else runs on it, so the load average is printed too.
+"""
+
+from __future__ import annotations
+
+import argparse
+import os
+import tempfile
+import time
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+from app.tables.read import read_table
+
+GOAL = 2.0
+
+
+def make_frame(n: int, seed: int = 0) -> pd.DataFrame:
+    rng = np.random.default_rng(seed)
+    frame = pd.DataFrame({f"x{i}": rng.normal(loc=i, scale=1 + i, size=n) for i in range(6)})
+    frame.loc[rng.random(n) < 0.01, "x5"] = np.nan
+    frame["age"] = rng.integers(18, 90, n)
+    frame["visits"] = rng.poisson(3, n)
+    frame["region"] = rng.choice(["north", "south", "east", "west"], n)
+    frame["product"] = rng.choice([f"P{k:03d}" for k in range(50)], n)
+    frame["segment"] = rng.choice(["Consumer", "Corporate", "Home Office"], n)
+    frame["member"] = rng.choice(["yes", "no"], n)
+    return frame
+
+
+def write_csv(path: Path, mb: float, seed: int = 0) -> int:
+    """Write about mb megabytes of rows to path; returns the number of rows."""
+    probe = make_frame(10_000, seed).to_csv(index=False).encode()
+    rows = max(100, int(mb * 1e6 / (len(probe) / 10_000)))
+    make_frame(rows, seed).to_csv(path, index=False)
+    return rows
+
+
+def timed(fn) -> float:
+    start = time.perf_counter()
+    fn()
+    return time.perf_counter() - start
+
+
+def main(argv: list[str] | None = None) -> float:
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("--mb", type=float, default=100.0, help="size of the CSV in MB")
+    parser.add_argument("--repeat", type=int, default=3, help="timed runs of each reader")
+    args = parser.parse_args(argv)
+    with tempfile.TemporaryDirectory() as tmp:
+        path = Path(tmp) / "bench.csv"
+        started = time.perf_counter()
+        rows = write_csv(path, args.mb)
+        size = path.stat().st_size
+        print(
+            f"file: {size / 1e6:.1f} MB, {rows:,} rows x 12 columns "
+            f"(written in {time.perf_counter() - started:.1f} s)"
+        )
+        table = read_table(path)  # warm-up (page cache, imports, thread pools); also a check
+        print("kinds: " + ", ".join(f"{c}={k}" for c, k in table.kinds.items()))
+        pd.read_csv(path)
+        ours: list[float] = []
+        theirs: list[float] = []
+        print(f"{'run':>4}  {'read_table':>11}  {'pandas.read_csv':>16}")
+        for run in range(1, args.repeat + 1):
+            if run % 2:  # alternate which reader goes first
+                ours.append(timed(lambda: read_table(path)))
+                theirs.append(timed(lambda: pd.read_csv(path)))
+            else:
+                theirs.append(timed(lambda: pd.read_csv(path)))
+                ours.append(timed(lambda: read_table(path)))
+            print(f"{run:>4}  {ours[-1]:>9.3f} s  {theirs[-1]:>14.3f} s")
+    ratio = min(theirs) / min(ours)
+    load = ", ".join(f"{x:.1f}" for x in os.getloadavg())
+    print(f"best: read_table {min(ours):.3f} s, pandas.read_csv {min(theirs):.3f} s")
+    print(
+        f"ratio pandas/read_table: {ratio:.2f}x (goal: at least {GOAL:.0f}x; "
+        f"{os.cpu_count()} cores, load average {load})"
+    )
+    return ratio
+
+
+if __name__ == "__main__":
+    main()
