@@ -15,6 +15,15 @@
     body.replaceChildren(p);
   }
 
+  // plotly.min.js is large and deferred: draw once it has loaded (checked for up to 30 s).
+  function drawWhenReady(holder, fig, tries) {
+    if (window.Plotly) {
+      window.Plotly.react(holder, fig.data, fig.layout, { responsive: true, displaylogo: false });
+    } else if (tries < 300) {
+      setTimeout(() => drawWhenReady(holder, fig, tries + 1), 100);
+    }
+  }
+
   async function load(details) {
     const body = details.querySelector(".insight-body");
     if (!body || details.dataset.loaded) return;
@@ -31,10 +40,7 @@
       body.innerHTML = data.html;  // server-rendered, escaped by the template engine
       const fig = data.figure;
       const holder = body.querySelector(".figure");
-      if (fig && holder && window.Plotly) {
-        window.Plotly.react(holder, fig.data, fig.layout,
-          { responsive: true, displaylogo: false });
-      }
+      if (fig && holder) drawWhenReady(holder, fig, 0);
     } catch (e) {
       say(body, "The server could not be reached: " + e.message);
       delete details.dataset.loaded;

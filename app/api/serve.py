@@ -52,8 +52,8 @@ def _start(port: int | None, data_dir: str | os.PathLike | None, limits: Any) ->
     import uvicorn
 
     from app.store import Store, default_root
-    from app.web.app import create_app
     from app.web.access.guard import hosts_for
+    from app.web.app import create_app
     from app.web.server import SHUTDOWN_SECONDS, base_url
 
     port = port or _free_port()
@@ -161,9 +161,9 @@ def serve(data: Any, response: str | None = None, *, formula: str | None = None,
         The session's address on http://127.0.0.1, with its edit key.
     """
     global _running
-    from app.web.routes.formulas import start_session
     from app.web.access.limits import Limits
     from app.web.access.links import link
+    from app.web.routes.formulas import start_session
 
     table, steps, source = _starting_point(data, response, formula, recipe)
     limits = limits or Limits()
@@ -171,7 +171,7 @@ def serve(data: Any, response: str | None = None, *, formula: str | None = None,
         if _running is None or not _running.thread.is_alive():
             _running = _start(port, data_dir, limits)
         running = _running
-    _, made = start_session(running.app.state.bench, table, steps, name or source, limits)
+    _, made = start_session(running.app.state.analyst, table, steps, name or source, limits)
     url = link(running.base, made.session_id, made.edit_token)
     if open_browser:
         webbrowser.open(url)

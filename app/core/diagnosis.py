@@ -206,8 +206,11 @@ def diagnose_factor(
     nonconst = [j for j in range(p) if j not in consts and j not in F.zero_columns]
     Zc = cnd.unit_columns(cen, nonconst)
     sv_c = cnd.singular_values(Zc)
-    # The centred columns are deficient exactly when a relation ties non-constant columns.
-    cen_deficient = any(names[j] in involved for j in nonconst)
+    # Centring removes the constant's direction from the span: the centred non-constant
+    # columns have rank rank(X) − 1 when the constant is in the span (explicitly or not),
+    # rank(X) otherwise; below their number they are deficient (the one rank decision).
+    cen_rank = rank - (1 if F.constant_in_span else 0)
+    cen_deficient = cen_rank < len(nonconst)
     cond = {
         # Raw scale: no tolerance of its own; infinite exactly when X is rank deficient.
         "raw": finite_or_none(cnd.condition_number(sv_raw, 0.0 if rank == p else np.inf)),

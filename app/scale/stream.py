@@ -67,7 +67,8 @@ class StreamInfo:
         return Design(X=np.zeros((0, len(lay.columns))), columns=list(lay.columns),
                       response=lay.response, groups=dict(lay.groups),
                       rows_total=lay.rows_total, rows_used=lay.rows_used,
-                      dropped_by=dict(lay.dropped_by), notes=list(lay.notes))
+                      dropped_by=dict(lay.dropped_by), notes=list(lay.notes),
+                      references=dict(lay.references))
 
 
 def _as_recipe(recipe: Recipe | list | None) -> Recipe:

@@ -38,6 +38,7 @@ class Layout:
     rows_used: int
     dropped_by: dict[str, int]
     notes: list[str] = field(default_factory=list)
+    references: dict[str, str] = field(default_factory=dict)
 
 
 def _refuse(pos: int, op: str, what: str, todo: str, kept: bool) -> InputError:
@@ -252,12 +253,18 @@ def finish(p: Partial, where: str) -> tuple[Factorization, Layout]:
     names: list[str] = [INTERCEPT] if p.shape.intercept else []
     visible: list[str] = [CONSTANT] if p.shape.intercept else []
     groups: dict[str, list[str]] = {}
+    references: dict[str, str] = {}
     coding: list[str] = []
     for e in preds:
         if e.kind == "categorical":
-            pairs = _indicators(e, p.levels.get(e.key, {}), coding)
+            levels = p.levels.get(e.key, {})
+            pairs = _indicators(e, levels, coding)
             if pairs:
                 groups[e.name] = [n for n, _ in pairs]
+                present = level_order(lv for lv, k in levels.items() if k > 0)
+                ref = e.reference if e.reference is not None else present[0]
+                if ref != ALL_LEVELS:
+                    references[e.name] = ref
         else:
             pairs = [(e.name, e.key)]
         for name, key in pairs:
@@ -277,5 +284,5 @@ def finish(p: Partial, where: str) -> tuple[Factorization, Layout]:
     notes += list(p.shape.notes) + comp_notes + coding + left_notes
     layout = Layout(columns=names, response=None if resp is None else resp.name, groups=groups,
                     intercept=p.shape.intercept, rows_total=p.rows, rows_used=p.kept,
-                    dropped_by=dropped_by, notes=notes)
+                    dropped_by=dropped_by, notes=notes, references=references)
     return F, layout

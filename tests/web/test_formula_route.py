@@ -26,7 +26,7 @@ def test_formula_opens_a_session_on_its_design(client, sid):
     assert new != sid and r.json()["url"] == f"/s/{new}"
     got = _diagnosis(client, new)
     # Reference: the same formula on the session's table through the design layer.
-    table = client.app.state.bench.session(sid).table
+    table = client.app.state.analyst.session(sid).table
     design = formula_design(table, FORMULA)
     expected = app.inspect(table, formula=FORMULA)
     assert got["columns"] == design.columns
