@@ -20,9 +20,9 @@ from dask.distributed import LocalCluster  # noqa: E402
 from fastapi.testclient import TestClient  # noqa: E402
 
 from app.design.recipe import Recipe, build_design
+from app.scale.reduced_steps import ROWS_NEEDED
 from app.tables.read import read_table
-from app.web.dask_app import create_dask_app
-from app.web.reduced_steps import ROWS_NEEDED
+from app.web.engines import create_dask_app
 from tests.scale.reduced_check import assert_matches_in_memory
 
 RECIPE = [{"step": "response", "column": "load"}]
