@@ -1,4 +1,4 @@
-"""Turning a session into an Analysis: replay the recipe, diagnose, remember recent results.
+"""Turning a session into an Analysis: its source's factor for the recipe, diagnosed; recent kept.
 
 Calls the recipe and the core only; never does linear algebra itself, never renders.
 """
@@ -157,6 +157,9 @@ def on_source(source: Source, settings: Settings) -> Analysis:
 
 class Analyst:
     """The analysis side of the web app: sessions in a store, recent analyses in memory.
+
+    One Analyst serves every source of a factor: a session with rows goes through the edit
+    engines below, one without rows asks its source for the factor of its recipe.
 
     Every change is tried on a copy of the session first; only a change whose analysis
     succeeds is stored, so a failing step never touches what the session holds. Changes
