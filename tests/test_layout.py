@@ -36,6 +36,7 @@ def allowed_directions(text: str) -> dict[str, set[str]]:
         if not line.startswith("|"):
             break
         cells = [c.strip() for c in line.strip().strip("|").split("|")]
+        assert len(cells) == 3, f"DEVELOPERS.md: a row needs 3 cells (a stray '|'?): {line}"
         m = WHERE.match(cells[0])
         assert m, f"DEVELOPERS.md: cannot read the area {cells[0]!r} (write `app/NAME/`)"
         may = cells[-1]

@@ -66,6 +66,10 @@ CREATE TABLE IF NOT EXISTS refusals (   -- so a retried id gets the same answer 
     at REAL NOT NULL,
     PRIMARY KEY (session_id, change_id)
 );
+CREATE TABLE IF NOT EXISTS factors (   -- a session's reduced factor, for sessions without rows
+    session_id TEXT PRIMARY KEY REFERENCES sessions(id) ON DELETE CASCADE,
+    data BLOB NOT NULL               -- as the source that reduced it wrote it (opaque here)
+);
 CREATE TABLE IF NOT EXISTS pins (
     session_id TEXT NOT NULL REFERENCES sessions(id) ON DELETE CASCADE,
     pin_id INTEGER NOT NULL,

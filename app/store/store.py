@@ -130,10 +130,12 @@ class Store:
 
     def create_session(self, data: bytes, filename: str, *, title: str | None = None,
                        sheet: str | int | None = None, kinds: dict[str, str] | None = None,
-                       table: Table | None = None) -> Created:
+                       table: Table | None = None, factor: bytes | None = None) -> Created:
         """Read the uploaded bytes (unless `table`, already read from exactly these bytes
         with these options, is given) and save a new session with an empty history.
-        The table file is written once per content; the tokens are returned only here."""
+        The table file is written once per content; the tokens are returned only here.
+        factor: a reduced factor's bytes, saved with the session in the same transaction
+        (load_factor gives them back)."""
         name = clean_text(PurePath(str(filename).replace("\\", "/")).name or "", "file name", 255)
         if table is None:
             table = read_bytes(data, name, sheet=sheet, kinds=kinds)
@@ -160,7 +162,16 @@ class Store:
                 "created, updated) VALUES (?, ?, ?, ?, ?, ?, ?, ?)",
                 (made.session_id, key, name, title, tokens.token_hash(made.edit_token),
                  tokens.token_hash(made.view_token), now, now))
+            if factor is not None:
+                con.execute("INSERT INTO factors (session_id, data) VALUES (?, ?)",
+                            (made.session_id, bytes(factor)))
         return made
+
+    def load_factor(self, session_id: str) -> bytes | None:
+        """The factor bytes saved with the session (None: it has none)."""
+        row = self._con().execute("SELECT data FROM factors WHERE session_id = ?",
+                                  (session_id,)).fetchone()
+        return None if row is None else bytes(row[0])
 
     def list_recent(self, limit: int = 20) -> list[SessionInfo]:
         """The most recently changed sessions first."""

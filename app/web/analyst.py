@@ -1,4 +1,4 @@
-"""Turning a session into an Analysis: replay the recipe, diagnose, remember recent results.
+"""Turning a session into an Analysis: its source's factor for the recipe, diagnosed; recent kept.
 
 Calls the recipe and the core only; never does linear algebra itself, never renders.
 """
@@ -13,6 +13,7 @@ from dataclasses import replace
 from typing import Any
 
 from app.core import diagnose
+from app.core.diagnosis import diagnose_factor
 from app.design.apply_roles import levels_of
 from app.design.design import Design
 from app.design.names import quoted
@@ -20,6 +21,9 @@ from app.design.recipe import Recipe
 from app.design.replay import trace_design
 from app.design.steps import describe_step, finite_number, short_number
 from app.design.working import DROPPED, PREDICTOR, RESPONSE
+from app.scale.reduced import Reduced
+from app.scale.reduced_steps import refused
+from app.scale.sources import NO_ROWS_NOTE, Source
 from app.store.records import Applied, Conflict, Created
 from app.tables.errors import InputError
 from app.tables.table import Table
@@ -133,8 +137,29 @@ def analyse(table: Table, settings: Settings) -> Analysis:
     )
 
 
+def on_source(source: Source, settings: Settings) -> Analysis:
+    """The diagnosis of a source's factor under the settings (keep, ridge, recipe steps)."""
+    started = time.perf_counter()
+    got = source.factor_for(list(settings.recipe))
+    lay = got.layout
+    diag = diagnose_factor(got.F, response=lay.response, groups=lay.groups,
+                           keep=list(settings.keep) or None, ridge_penalty=settings.ridge)
+    # The controls list the working columns the factor holds, in recipe order.
+    working = [WorkingColumn(e.name, e.kind, e.role, None, None) for e in got.ledger.entries
+               if e.held is not None or e.level_ids]
+    return Analysis(
+        settings=settings, columns=list(lay.columns), response=lay.response,
+        groups=lay.groups, rows_total=got.rows_total, rows_used=got.rows_used,
+        notes=list(got.notes), diagnosis=diag.to_dict(), working=working,
+        seconds=time.perf_counter() - started, path="factor",
+    )
+
+
 class Analyst:
     """The analysis side of the web app: sessions in a store, recent analyses in memory.
+
+    One Analyst serves every source of a factor: a session with rows goes through the edit
+    engines below, one without rows asks its source for the factor of its recipe.
 
     Every change is tried on a copy of the session first; only a change whose analysis
     succeeds is stored, so a failing step never touches what the session holds. Changes
@@ -201,8 +226,11 @@ class Analyst:
             return held
 
     def _analyse(self, session: Session, settings: Settings) -> Analysis:
-        """Through a cached engine when one is a step (or only keep/ridge) away, else one
-        build from the rows; either way the engine of these steps is kept for the next."""
+        """A session without rows: from its source's factor. With rows: through a cached
+        engine when one is a step (or only keep/ridge) away, else one build from the rows;
+        either way the engine of these steps is kept for the next."""
+        if session.source.rows is None:
+            return on_source(session.source, settings)
         table, steps = session.table, settings.steps
         held = self._held(session, steps)
         if held is not None:  # only the keep list or the ridge penalty changed
@@ -218,9 +246,10 @@ class Analyst:
 
     def with_rows(self, session: Session) -> Analysis:
         """The current analysis as diagnosed with the rows (residuals of relations on the
-        rows, Spearman): for the report, which lists them."""
+        rows, Spearman): for the report, which lists them (a session without rows: what
+        its factor gives)."""
         result = self.current(session)
-        if result.path == "rows":
+        if result.path == "rows" or session.source.rows is None:
             return result
         key = ("rows", session.session_id, id(session.table), result.settings)
         return self.budget.run(key, lambda: analyse(session.table, result.settings),
@@ -230,6 +259,8 @@ class Analyst:
         """The current diagnosis with its Spearman matrix, computed from the rows when the
         factor path left it out (the cached analysis then keeps it), and a note saying so."""
         result = self.current(session)
+        if session.source.rows is None:
+            return result.diagnosis, NO_ROWS_NOTE
         corr = result.diagnosis["correlations"]
         if corr["spearman"] is not None or len(corr["columns"]) < 2:
             return result.diagnosis, None
@@ -248,14 +279,22 @@ class Analyst:
         return self.analysis_at(session, session.position)
 
     def needs_rows(self, session: Session, what: str) -> None:
-        """Raise InputError when `what` needs rows this session does not hold (every
-        session here holds its table; see reduced_analyst.py)."""
+        """Raise InputError when `what` needs rows this session does not hold."""
+        if session.source.rows is None:
+            raise refused(what)
 
     def start(self, data: bytes, filename: str, table: Table | None = None
               ) -> tuple[Session, Created]:
         """A new session on an uploaded file (table: already read from exactly these
         bytes); the recipe starts empty (the user picks the response)."""
         return self.store.create(data, filename, table)
+
+    def start_reduced(self, reduced: Reduced) -> tuple[Session, Created]:
+        """A new session on a reduced dataset: its design is the one the reduction built, and
+        its factor is kept with it in the store (so it outlives this server)."""
+        table = reduced.schema()
+        return self.store.create(reduced.manifest(), table.source, table,
+                                 factor=reduced.to_bytes())
 
     def apply(self, session_id: str, change: Change, base_version: int | None = None,
               change_id: str | None = None) -> Applied | Conflict:

@@ -30,7 +30,7 @@ from app.web.budget import AnalysisTooSlow, Budget
 from app.web.live.feed import Hub
 from app.web.rendering.render import STATIC, render
 from app.web.routes import api, assets, downloads, formulas, insight, pages, sessions
-from app.web.stored import StoredSessions
+from app.web.stored import StoredSessions, session_check
 
 GONE = ("There is no session at this address: it may have been deleted, or the link may be "
         "incomplete.")
@@ -56,7 +56,7 @@ def _wants_json(request: Request) -> bool:
 def _throwaway_store(app: FastAPI) -> Store:
     """A store in a new temporary folder, removed when the app is (tests, trials)."""
     folder = tempfile.mkdtemp(prefix="rankscope-")
-    store = Store(folder)
+    store = Store(folder, check=session_check)
 
     def remove(store: Store = store, folder: str = folder) -> None:
         store.close()
@@ -78,7 +78,7 @@ def create_app(store: Store | None = None, *, share: bool = False,
     public_url: the address others reach this server by, used in share links (default:
     the address of the request asking for them).
     app.state.owner_key opens the start page and every session when sharing.
-    analyst: the Analyst class (a ReducedAnalyst when serving a dataset reduced on Dask).
+    analyst: the Analyst class (tests give a slower one); it serves every source alike.
     allowed_hosts: the Host header values answered ("name:port", or "name" for any port);
     default: the loopback names and Starlette's "testserver" on any port, and public_url's
     address. server.run sets app.state.allowed_hosts from the address it serves on.

@@ -15,13 +15,14 @@ from pathlib import Path
 
 import uvicorn
 
-from app.store import Store, default_root
+from app.store import Store
 from app.store.records import Created
 from app.tables.read import read_table
 from app.web.access.guard import hosts_for
 from app.web.access.limits import Limits
 from app.web.access.links import link
 from app.web.app import create_app
+from app.web.engines import open_store
 from app.web.state import Session
 
 #: Seconds a stopping server waits for open requests; live feeds never end on their own
@@ -105,19 +106,19 @@ def run(path: str | os.PathLike | None, host: str = "127.0.0.1", port: int = 876
     public_url = base if share else None
     made = None
     if engine == "dask":
-        from app.web.dask_app import create_dask_app  # dask loads only for this engine
+        from app.web.engines import create_dask_app  # dask loads only for this engine
 
         app, _, made = create_dask_app(path or "", response, scheduler, data_dir,
                                        share=share, public_url=public_url)
         store: Store = app.state.sessions.db
     elif engine == "stream":
-        from app.web.stream_app import create_stream_app
+        from app.web.engines import create_stream_app
 
         app = create_stream_app(path or "", response, data_dir, share=share,
                                 public_url=public_url, on_done=_announce(base, share))
         store = app.state.sessions.db
     else:
-        store = Store(data_dir if data_dir is not None else default_root())
+        store = open_store(data_dir)
         app = create_app(store, share=share, public_url=public_url, limits=limits)
     app.state.allowed_hosts = hosts_for(host, port, reachable_host(host),
                                         *(host_names or ()))  # DNS rebinding

@@ -1,4 +1,4 @@
-"""Inspection sessions as the web app sees them: table, history with undo pointer, pinned fits.
+"""Inspection sessions: table, source of its factor, history with undo pointer, pinned fits.
 
 Records and the SessionStore interface only (implemented in stored.py); no analysis here.
 """
@@ -9,6 +9,7 @@ import time
 from dataclasses import dataclass, field, replace
 from typing import Any, Protocol
 
+from app.scale.sources import RowsSource, Source
 from app.store.records import Applied, Conflict, Created
 from app.tables.table import Table
 
@@ -50,6 +51,7 @@ class Session:
     how many are in force (undo moves it back, redo forward, a new change cuts off what
     lay beyond it). version: the store's version, the base of the next change.
     updated: when anything about the session last changed (pins and title included).
+    source: where its factor comes from (default: its table's rows, held in memory).
     """
 
     session_id: str
@@ -61,6 +63,12 @@ class Session:
     version: int = 0
     title: str = ""
     updated: float = 0.0
+    source: Source | None = None
+
+    def __post_init__(self) -> None:
+        # Where the factor comes from; pages and routes never ask which source it is.
+        if self.source is None:
+            self.source = RowsSource(self.table)
 
     @property
     def in_force(self) -> list[Change]:
@@ -87,8 +95,8 @@ class SessionStore(Protocol):
     """Where sessions live. Reads give a Session; every change to the history is one
     versioned call, judged by the store against what happened since its base version."""
 
-    def create(self, data: bytes, filename: str, table: Table | None = None
-               ) -> tuple[Session, Created]: ...
+    def create(self, data: bytes, filename: str, table: Table | None = None,
+               factor: bytes | None = None) -> tuple[Session, Created]: ...
 
     def get(self, session_id: str) -> Session | None: ...
 

@@ -5,11 +5,25 @@ Translates between app.store records and the web's records; judges and analyses 
 
 from __future__ import annotations
 
+import threading
 from pathlib import PurePath
 from typing import Any
 
-from app.store import Applied, Conflict, Created, SessionInfo, SessionNotFound, SessionState, Store
+from app.scale.reduced import Reduced, engine_of
+from app.scale.reduced_steps import refuse_without_rows
+from app.scale.sources import ReducedSource, Source, UnkeptSource
+from app.store import (
+    Applied,
+    Conflict,
+    Created,
+    SessionInfo,
+    SessionNotFound,
+    SessionState,
+    Store,
+    replay_check,
+)
 from app.store import Change as StoredChange
+from app.store.history import Folded
 from app.store.store import MAX_TITLE
 from app.tables.table import Table
 from app.web.access import links
@@ -19,8 +33,19 @@ from app.web.state import Change, PinnedFit, Session
 SEALED = "sealed_links"
 
 
-def as_session(state: SessionState) -> Session:
-    """The web's view of a saved session: the timeline with its pointer, the pins."""
+def session_check(table: Table, before: Folded, change: StoredChange) -> None:
+    """The store's check (see app.store.check) for every source: the recipe's replay for a
+    session on rows; for a reduced one, only steps its factor can take (the analyst checks
+    the rest on the factor before anything is saved)."""
+    if engine_of(table) is None:
+        replay_check(table, before, change)
+    elif change.kind == "step":
+        refuse_without_rows(change.payload)
+
+
+def as_session(state: SessionState, source: Source | None = None) -> Session:
+    """The web's view of a saved session: the timeline with its pointer, the pins, the
+    source of its factor (default: its table's rows)."""
     pins = [PinnedFit(p.pin_id, p.name, int(p.meta.get("position", 0)), p.fit,
                       list(p.meta.get("columns", [])), int(p.meta.get("rank", 0)), p.at)
             for p in state.pins]
@@ -28,7 +53,7 @@ def as_session(state: SessionState) -> Session:
         session_id=state.session_id, table=state.table,
         history=[Change(e.kind, e.payload) for e in state.timeline], position=state.position,
         pinned=pins, created=state.created, version=state.version, title=state.title,
-        updated=state.updated)
+        updated=state.updated, source=source)
 
 
 class StoredSessions:
@@ -37,24 +62,45 @@ class StoredSessions:
     def __init__(self, db: Store) -> None:
         self.db = db
         self._key = links.link_key(db.root)
+        # Reduced factors by session, read from the store once (they never change).
+        self._sources: dict[str, Source] = {}
+        self._guard = threading.Lock()
+
+    def _source(self, state: SessionState) -> Source | None:
+        """The source of a reduced session's factor (None: its table's rows)."""
+        engine = engine_of(state.table)
+        if engine is None:
+            return None
+        with self._guard:
+            held = self._sources.get(state.session_id)
+        if held is None:
+            data = self.db.load_factor(state.session_id)
+            held = UnkeptSource(engine) if data is None else ReducedSource(
+                Reduced.from_bytes(data))
+            with self._guard:
+                self._sources[state.session_id] = held
+        return held
 
     # -- the SessionStore interface -------------------------------------------------------
 
-    def create(self, data: bytes, filename: str, table: Table | None = None
-               ) -> tuple[Session, Created]:
+    def create(self, data: bytes, filename: str, table: Table | None = None,
+               factor: bytes | None = None) -> tuple[Session, Created]:
         """A new session titled by the file's name; its links are sealed for the Share
-        button (the tokens themselves are returned only here)."""
+        button (the tokens themselves are returned only here). factor: a reduced factor's
+        bytes, kept with the session (its table then has no rows)."""
         title = PurePath(str(filename).replace("\\", "/")).name[:MAX_TITLE] or None
-        made = self.db.create_session(data, filename, title=title, table=table)
+        made = self.db.create_session(data, filename, title=title, table=table, factor=factor)
         self.db.update_settings(made.session_id, {SEALED: links.seal(
             self._key, made.session_id, made.edit_token, made.view_token)})
-        return as_session(self.db.load(made.session_id)), made
+        state = self.db.load(made.session_id)
+        return as_session(state, self._source(state)), made
 
     def get(self, session_id: str) -> Session | None:
         try:
-            return as_session(self.db.load(session_id))
+            state = self.db.load(session_id)
         except SessionNotFound:
             return None
+        return as_session(state, self._source(state))
 
     def change(self, session_id: str, base_version: int, kind: str, payload: dict[str, Any],
                change_id: str | None, checked_on: int | None = None) -> Applied | Conflict:
@@ -81,6 +127,8 @@ class StoredSessions:
 
     def delete(self, session_id: str) -> None:
         self.db.delete(session_id)
+        with self._guard:
+            self._sources.pop(session_id, None)
 
     def access(self, session_id: str, token: str | None) -> str | None:
         return self.db.access(session_id, token)

@@ -8,6 +8,7 @@ each as) before it died, RFC 9110 for status codes, and numpy's rank of the desi
 from __future__ import annotations
 
 import signal
+import time
 
 import httpx
 import numpy as np
@@ -73,3 +74,57 @@ def test_session_survives_sigkill_to_its_last_acknowledged_change(serve, tmp_pat
                              region == "south", region == "west"]).astype(float)
         # Reference: numpy.linalg.matrix_rank of the design the saved recipe describes.
         assert d["rank"] == np.linalg.matrix_rank(X)
+
+
+def _reduced_session(url: str, seconds: float = 60.0) -> str:
+    """The session id a streamed reduction ends with, read from its progress JSON."""
+    deadline = time.monotonic() + seconds
+    with httpx.Client(base_url=url, timeout=10) as client:
+        while time.monotonic() < deadline:
+            status = client.get("/api/reducing").json()
+            assert status["state"] in ("running", "done"), status
+            if status["state"] == "done":
+                return status["session"]
+            time.sleep(0.1)
+    raise AssertionError("the reduction did not finish")
+
+
+@pytest.mark.skipif(not hasattr(signal, "SIGKILL"), reason="needs POSIX signals")
+def test_reduced_session_survives_sigkill_with_its_factor(serve, tmp_path) -> None:
+    """A session reduced by streaming comes back after SIGKILL under a plain `serve` on the
+    same data folder: its factor, its changes, and the refusal of a change needing rows."""
+    csv = tmp_path / "units.csv"
+    csv.write_bytes(to_csv(units_table()))
+    first = serve(str(csv), "--engine", "stream", "--response", "load")
+    sid = _reduced_session(first.url)
+    with httpx.Client(base_url=first.url, timeout=10) as client:
+        r = client.post(f"/api/s/{sid}/changes?html=0", json={
+            "kind": "step", "payload": {"step": "drop", "column": "temp_f"},
+            "base_version": 0, "change_id": "drop-0"})
+        assert r.status_code == 200, r.text
+        before = client.get(f"/api/s/{sid}/diagnosis").json()
+    first.kill()
+
+    second = serve()  # the memory engine, the same data folder
+    with httpx.Client(base_url=second.url, timeout=10) as again:
+        d = again.get(f"/api/s/{sid}/diagnosis")
+        assert d.status_code == 200, d.text
+        after = d.json()
+        # Reference: the diagnosis the first server gave of the same factor and change.
+        assert after["columns"] == before["columns"] and "temp_f" not in after["columns"]
+        assert after["rank"] == before["rank"]
+        assert after["vif"] == before["vif"]
+        page = again.get(f"/s/{sid}/inspect")
+        assert page.status_code == 200 and "Reduced without holding the rows" in page.text
+        # A step that needs the rows is refused in words (RFC 9110: a 4xx, never a 500).
+        r = again.post(f"/api/s/{sid}/changes?html=0", json={
+            "kind": "step", "payload": {"step": "log", "column": "hours"},
+            "base_version": 1, "change_id": "log-1"})
+        assert 400 <= r.status_code < 500 and "rows" in r.text, r.text
+        # Reference: numpy.linalg.matrix_rank of the design the saved recipe describes
+        # (intercept, the numeric columns but temp_f, the region indicators but one).
+        table = units_table()
+        region = np.asarray(table["region"])
+        X = np.column_stack([np.ones(len(region)), *(np.asarray(table[c]) for c in (
+            "temp_c", "mass_lb", "mass_kg", "hours")), region == "south", region == "west"])
+        assert after["rank"] == np.linalg.matrix_rank(X.astype(float))

@@ -14,9 +14,9 @@ import pytest
 from fastapi.testclient import TestClient
 
 from app.design.recipe import Recipe, build_design
+from app.scale.reduced_steps import ROWS_NEEDED
 from app.tables.read import read_table
-from app.web.reduced_steps import ROWS_NEEDED
-from app.web.stream_app import create_stream_app
+from app.web.engines import create_stream_app
 from tests.scale.reduced_check import assert_same_diagnosis, reference
 from tests.scale.test_web_stream import BLOCK, RECIPE, WAIT, rows
 

@@ -20,9 +20,10 @@ from dask.distributed import LocalCluster  # noqa: E402
 from fastapi.testclient import TestClient  # noqa: E402
 
 from app.design.recipe import Recipe, build_design
+from app.scale.reduced_steps import ROWS_NEEDED
 from app.tables.read import read_table
-from app.web.dask_app import create_dask_app
-from app.web.reduced_steps import ROWS_NEEDED
+from app.web.app import create_app
+from app.web.engines import create_dask_app, open_store
 from tests.scale.reduced_check import assert_matches_in_memory
 
 RECIPE = [{"step": "response", "column": "load"}]
@@ -107,3 +108,23 @@ def test_keep_ridge_and_drop_work_other_changes_refused(served) -> None:
     assert r.status_code == 200, r.text
     assert "temp_f" in client.get(f"/api/s/{sid}/diagnosis").json()["columns"]
     assert client.post(f"/api/s/{sid}/undo").status_code == 200
+
+
+def test_reduced_session_comes_back_in_a_new_app_on_its_folder(served) -> None:
+    """What a restart does, in process: a plain app on the same data folder, the cluster long
+    gone, serves the session from the factor kept in the store."""
+    client, sid = served
+    before = client.get(f"/api/s/{sid}/diagnosis").json()
+    store = open_store(client.app.state.sessions.db.root)
+    try:
+        again = TestClient(create_app(store))
+        after = again.get(f"/api/s/{sid}/diagnosis")
+        assert after.status_code == 200, after.text
+        # Reference: the first app's diagnosis of the same kept factor and history.
+        for key in ("columns", "rank", "basis", "vif", "condition_indices"):
+            assert after.json()[key] == before[key], key
+        r = again.post(f"/api/s/{sid}/changes", json={
+            "kind": "step", "payload": {"step": "log", "column": "hours"}})
+        assert r.status_code == 400 and ROWS_NEEDED in r.json()["error"]
+    finally:
+        store.close()

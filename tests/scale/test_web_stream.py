@@ -15,9 +15,9 @@ import pytest
 from fastapi.testclient import TestClient
 
 from app.design.recipe import Recipe, build_design
+from app.scale import reduction
 from app.tables.read import read_table
-from app.web import stream_app
-from app.web.stream_app import create_stream_app
+from app.web.engines import create_stream_app
 from tests.scale.reduced_check import assert_matches_in_memory
 
 RECIPE = [{"step": "response", "column": "load"}]
@@ -70,7 +70,7 @@ def csv_path(tmp_path: Path) -> Path:
 def gated(csv_path, tmp_path, monkeypatch) -> Iterator[tuple[TestClient, Any, Gate]]:
     """The app the CLI builds, its reduction held block by block by a Gate."""
     gate = Gate()
-    monkeypatch.setattr(stream_app, "stream_source", gate.stream(stream_app.stream_source))
+    monkeypatch.setattr(reduction, "stream_source", gate.stream(reduction.stream_source))
     app = create_stream_app(csv_path, "load", tmp_path / "sessions", block_rows=BLOCK)
     yield TestClient(app), app, gate
     app.state.reduction.cancel()

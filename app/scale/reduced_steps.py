@@ -5,7 +5,7 @@ linear steps of app.scale.linear, with the recipe's names and placement. Reads n
 from __future__ import annotations
 
 from dataclasses import dataclass, replace
-from typing import TYPE_CHECKING, Any
+from typing import Any
 
 import numpy as np
 
@@ -18,12 +18,10 @@ from app.design.steps import ALL_LEVELS, output_name
 from app.design.working import DROPPED, PREDICTOR, RESPONSE, Col, WorkingColumns
 from app.scale.ledger import Entry, Layout, Ledger, Rebuild
 from app.scale.linear import State, apply_linear
+from app.scale.reduced import Reduced
 from app.scale.start import held_id
 from app.scale.store import Store
 from app.tables.errors import InputError
-
-if TYPE_CHECKING:
-    from app.web.reduced import Reduced
 
 #: The design steps a reduced session can take on its factor alone.
 FACTOR_STEPS = ("drop", "restore", "intercept", "center", "standardize", "unit_length",
@@ -39,6 +37,21 @@ TODO = "Start a session from a file to make this change"
 
 def refused(what: str = "") -> InputError:
     return InputError(ROWS_NEEDED, what, TODO)
+
+
+def takes_without_rows(step: dict[str, Any]) -> bool:
+    """Whether a recipe step can be taken on a factor alone (the rows being elsewhere)."""
+    if step.get("step") not in FACTOR_STEPS:
+        return False
+    return step.get("step") != "combine" or step.get("method") in FACTOR_COMBINE
+
+
+def refuse_without_rows(step: dict[str, Any]) -> None:
+    """Raise the refusal a session without rows gives a step that needs them."""
+    if step.get("step") not in FACTOR_STEPS:
+        raise refused(f"recipe step {step.get('step')!r}")
+    if not takes_without_rows(step):
+        raise refused(f"combine by {step.get('method')!r}")
 
 
 @dataclass(frozen=True)
@@ -113,7 +126,7 @@ def _start(reduced: Reduced) -> tuple[State, frozenset[str]]:
 
 
 def _working(led: Ledger) -> WorkingColumns:
-    """A working without rows mirroring the ledger, for the recipe's own lookups and messages."""
+    """Working columns without rows mirroring the ledger, for the recipe's lookups and words."""
     cols = [Col(e.name, e.kind, np.empty(0), e.sources, role=e.role) for e in led.entries]
     return WorkingColumns(cols, np.empty(0, dtype=int), "", intercept=led.intercept)
 

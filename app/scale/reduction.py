@@ -1,5 +1,5 @@
-"""Serving a file too big for memory: the file streamed into its factor in a background thread
-(progress, cancel), then started as a session of the reduced app. Used by `serve --engine stream`.
+"""A file too big for memory streamed into its factor in a background thread (progress, cancel),
+then handed to whoever starts its session. Used by `serve --engine stream`; no web, no store.
 """
 
 from __future__ import annotations
@@ -11,31 +11,27 @@ from collections.abc import Callable
 from pathlib import Path
 from typing import Any
 
-from fastapi import FastAPI
-
 from app.design.names import quoted, suggestion
 from app.design.recipe import Recipe
+from app.scale.reduced import Reduced
 from app.scale.stream import BLOCK_ROWS, Cancelled, stream_source
 from app.scale.stream_source import open_source
-from app.store.records import Created
 from app.tables.errors import InputError
-from app.web.reduced import Reduced
-from app.web.reduced_app import create_reduced_app, start_reduced
-from app.web.routes import reducing
-from app.web.state import Session
 
 log = logging.getLogger(__name__)
 
-#: Called from the reduction's thread once its session exists.
-OnDone = Callable[[Session, Created], None]
+#: Called from the reduction's thread with the finished reduction; returns the session id of
+#: the session it started on it.
+Begin = Callable[[Reduced], str]
 
 
 class Reduction:
-    """One file streamed block by block in a daemon thread, then started as a session of the
-    app given to start(). The progress routes read status(); cancel() stops it between blocks."""
+    """One file streamed block by block in a daemon thread, then started as a session by the
+    callback given to start(). The progress routes read status(); cancel() stops it between
+    blocks."""
 
     def __init__(self, path: str | os.PathLike, response: str | None, *,
-                 block_rows: int = BLOCK_ROWS, on_done: OnDone | None = None) -> None:
+                 block_rows: int = BLOCK_ROWS) -> None:
         if not response:
             raise InputError("serving a streamed file needs a response column", "",
                              "Name it with --response COL")
@@ -46,8 +42,8 @@ class Reduction:
             raise InputError(f"the file has no column named {quoted(response)}", "--response",
                              suggestion(response, self._source.columns))
         self._recipe = Recipe([{"step": "response", "column": response}])
-        self._app: FastAPI | None = None
-        self._block_rows, self._on_done = block_rows, on_done
+        self._begin: Begin | None = None
+        self._block_rows = block_rows
         self._cancel = threading.Event()
         self._lock = threading.Lock()
         self._status: dict[str, Any] = {
@@ -56,9 +52,9 @@ class Reduction:
         self._thread = threading.Thread(target=self._run, name="rankscope-stream",
                                         daemon=True)
 
-    def start(self, app: FastAPI) -> None:
-        """Start streaming; the session it ends with is one of app's (a reduced app)."""
-        self._app = app
+    def start(self, begin: Begin) -> None:
+        """Start streaming; begin(reduced) starts the session it ends with."""
+        self._begin = begin
         self._thread.start()
 
     def cancel(self) -> None:
@@ -94,9 +90,8 @@ class Reduction:
         try:
             F, info = stream_source(self._source, self._recipe, block_rows=self._block_rows,
                                     progress=self._progress, cancel=self._cancel)
-            assert self._app is not None  # start() sets it before the thread runs
-            reduced = Reduced(F, info, self.path, 1, engine="stream")
-            session, made = start_reduced(self._app, reduced)
+            assert self._begin is not None  # start() sets it before the thread runs
+            session_id = self._begin(Reduced(F, info, self.path, 1, engine="stream"))
         except Cancelled as e:
             self._update(state="cancelled", message=f"The reduction was cancelled ({e}).")
             return
@@ -107,24 +102,6 @@ class Reduction:
             log.exception("streaming %s failed", self.path)
             self._update(state="failed", message=f"The reduction stopped: {e}")
             return
-        self._update(state="done", rows=info.layout.rows_total, session=session.session_id,
+        self._update(state="done", rows=info.layout.rows_total, session=session_id,
                      message=f"Reduced {info.layout.rows_total:,} rows in {info.blocks} "
                              f"block(s).")
-        if self._on_done is not None:
-            self._on_done(session, made)
-
-
-def create_stream_app(path: str | os.PathLike, response: str | None,
-                      data_dir: str | os.PathLike | None = None, *, share: bool = False,
-                      public_url: str | None = None, block_rows: int = BLOCK_ROWS,
-                      on_done: OnDone | None = None) -> FastAPI:
-    """The reduced app (see create_reduced_app) with the progress routes and the file's
-    reduction started (app.state.reduction). A missing file or response column raises
-    InputError before the store is opened. The caller cancels the reduction, waits for it,
-    then closes the store (app.state.sessions.db)."""
-    reduction = Reduction(path, response, block_rows=block_rows, on_done=on_done)
-    app = create_reduced_app(data_dir, share=share, public_url=public_url)
-    app.state.reduction = reduction
-    app.include_router(reducing.router)
-    reduction.start(app)
-    return app
