@@ -1,7 +1,7 @@
 """rankscope: inspect the design matrix of a linear model.
 
 Imports run one way, the allowed directions listed once in DEVELOPERS.md (Architecture map).
-The Python API's names load on first use (module __getattr__, PEP 562), so `import app`
+The Python API's names load on first use (module __getattr__, PEP 562), so `import rankscope`
 stays light: no numpy-heavy, pandas, scipy or web modules until a name is used.
 """
 
@@ -14,21 +14,21 @@ __version__ = "0.1.0"
 
 #: Public name -> the module that defines it.
 _LAZY = {
-    "inspect": "app.api.entry",
-    "serve": "app.api.serve",
-    "Inspection": "app.api.result",
-    "Recipe": "app.design.recipe",
-    "InputError": "app.tables.errors",
+    "inspect": "rankscope.api.entry",
+    "serve": "rankscope.api.serve",
+    "Inspection": "rankscope.api.result",
+    "Recipe": "rankscope.design.recipe",
+    "InputError": "rankscope.tables.errors",
 }
 
 __all__ = ["InputError", "Inspection", "Recipe", "__version__", "inspect", "serve"]
 
 if TYPE_CHECKING:  # for type checkers and editors only; nothing loads at run time
-    from app.api.entry import inspect
-    from app.api.result import Inspection
-    from app.api.serve import serve
-    from app.design.recipe import Recipe
-    from app.tables.errors import InputError
+    from rankscope.api.entry import inspect
+    from rankscope.api.result import Inspection
+    from rankscope.api.serve import serve
+    from rankscope.design.recipe import Recipe
+    from rankscope.tables.errors import InputError
 
 
 def __getattr__(name: str) -> Any:

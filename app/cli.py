@@ -15,7 +15,7 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Any, NoReturn, TextIO
 
-from app.report.checks import (
+from rankscope.report.checks import (
     EXIT_BAD_INPUT,
     EXIT_CROSSED,
     EXIT_OK,
@@ -24,7 +24,7 @@ from app.report.checks import (
     json_ready,
     parse_rule,
 )
-from app.tables.errors import InputError
+from rankscope.tables.errors import InputError
 
 CHECK_HELP = """\
 --fail-if rules (repeatable; exit code 1 when any is crossed, each crossing named on stderr):
@@ -75,7 +75,7 @@ def recipe_steps(args: argparse.Namespace, kinds: dict[str, str]) -> Steps:
     """The recipe file's steps, then the steps the options ask for, in a fixed order."""
     out = Steps([], [])
     if args.recipe:
-        from app.design.recipe import Recipe
+        from rankscope.design.recipe import Recipe
 
         try:
             text = Path(args.recipe).read_text(encoding="utf-8")
@@ -115,7 +115,7 @@ def recipe_steps(args: argparse.Namespace, kinds: dict[str, str]) -> Steps:
 def check_names(args: argparse.Namespace, columns: list[str]) -> None:
     """Name the option when it names a column the file lacks (without a recipe, whose
     steps may make new columns, the file's columns are all there is)."""
-    from app.design.names import quoted, suggestion
+    from rankscope.design.names import quoted, suggestion
 
     named = [("--response", args.response)] if args.response else []
     named += [("--categorical", c) for c in args.categorical]
@@ -128,7 +128,7 @@ def check_names(args: argparse.Namespace, columns: list[str]) -> None:
 
 def read(args: argparse.Namespace):
     """The table, with reading failures turned into InputError."""
-    from app.tables.read import read_table
+    from rankscope.tables.read import read_table
 
     path = args.file
     try:
@@ -171,7 +171,7 @@ def _checked_options(args: argparse.Namespace) -> list:
 
 
 def _check_keep(args: argparse.Namespace, columns: list[str]) -> None:
-    from app.design.names import quoted, suggestion
+    from rankscope.design.names import quoted, suggestion
 
     for name in args.keep:
         if name not in columns:
@@ -191,7 +191,7 @@ def _write_check(args: argparse.Namespace, rules: list, diagnosis: dict, design:
         # ASCII-only JSON (\u escapes) survives any terminal encoding unchanged.
         out.write(json.dumps(json_ready(doc), allow_nan=False, indent=2) + "\n")
     else:
-        from app.report.text import render_text
+        from rankscope.report.text import render_text
 
         out.write(render_text(diagnosis, design, source=source, notes=notes))
     crossed = [c for c in checks if c["crossed"]]
@@ -213,15 +213,15 @@ def run_check(args: argparse.Namespace) -> int:
         check_formula_options(args)
     elif not args.recipe:
         check_names(args, table.columns)
-    from app.core.diagnosis import diagnose_factor
-    from app.core.factor import factorize
-    from app.design.recipe import Recipe, build_design
-    from app.report.remedies import remedies_of
+    from rankscope.core.diagnosis import diagnose_factor
+    from rankscope.core.factor import factorize
+    from rankscope.design.recipe import Recipe, build_design
+    from rankscope.report.remedies import remedies_of
 
     steps = recipe_steps(args, dict(table.kinds) if args.formula is None else {})
     try:
         if args.formula is not None:
-            from app.design.formula import formula_design
+            from rankscope.design.formula import formula_design
 
             design = formula_design(table, args.formula, steps.steps)
         else:
@@ -243,11 +243,11 @@ def stream_check(args: argparse.Namespace, *, out: TextIO | None = None,
                  err: TextIO | None = None) -> int:
     """`rankscope check FILE --stream`: run_check's output and exit codes, the file read block
     by block with a progress bar on stderr."""
-    from app.core.diagnosis import diagnose_factor
-    from app.design.recipe import Recipe
-    from app.scale.stream import stream_source
-    from app.scale.stream_bar import ProgressBar
-    from app.scale.stream_source import open_source
+    from rankscope.core.diagnosis import diagnose_factor
+    from rankscope.design.recipe import Recipe
+    from rankscope.scale.stream import stream_source
+    from rankscope.scale.stream_bar import ProgressBar
+    from rankscope.scale.stream_source import open_source
 
     out = out or sys.stdout
     err = err or sys.stderr
@@ -267,7 +267,7 @@ def stream_check(args: argparse.Namespace, *, out: TextIO | None = None,
     finally:
         bar.close()
     _check_keep(args, info.columns)
-    from app.report.remedies import remedies_of
+    from rankscope.report.remedies import remedies_of
 
     keep = list(args.keep) or None
     found = diagnose_factor(F, response=info.response, groups=info.groups, keep=keep,
@@ -285,7 +285,7 @@ def serve_limits(args: argparse.Namespace) -> Any:
     defaults hold); 0 turns a row, column or time limit off. Refuses senseless values."""
     from dataclasses import replace
 
-    from app.web.access.limits import MB, Limits
+    from rankscope.web.access.limits import MB, Limits
 
     given = {flag: value for flag, value in (
         ("--max-upload-mb", args.max_upload_mb), ("--max-rows", args.max_rows),
@@ -325,7 +325,7 @@ def run_serve(args: argparse.Namespace) -> int:
                              "Name it with --response COL")
     elif args.file is not None and not Path(args.file).is_file():
         raise InputError("the file does not exist", args.file, "Check the path")
-    from app.web.server import run  # the web stack loads only when serving
+    from rankscope.web.server import run  # the web stack loads only when serving
 
     # --share alone opens the server to the local network; an explicit --host still wins
     # (tests share on 127.0.0.1).

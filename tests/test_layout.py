@@ -46,9 +46,12 @@ def allowed_directions(text: str) -> dict[str, set[str]]:
 
 
 def area_of(module: str) -> str | None:
-    """The top-level area of a dotted name under app (None for app itself or outside)."""
+    """The top-level area of a dotted name under the package (None for the package itself or
+    outside). The folder is app/, the import name rankscope (setup.py maps one onto the
+    other), so both spellings name the same modules."""
     parts = module.split(".")
-    return parts[1] if parts[0] == "app" and len(parts) > 1 else None
+    inside = parts[0] in ("app", "rankscope") and len(parts) > 1 and parts[1] != "__main__"
+    return parts[1] if inside else None
 
 
 def module_name(path: Path, root: Path) -> str:
@@ -83,7 +86,7 @@ def edges_between_areas(root: Path) -> list[Edge]:
     """Imports from one top-level area of root/app to another."""
     app = root / "app"
     areas = {p.stem for p in app.iterdir() if p.suffix == ".py" or (p / "__init__.py").exists()}
-    areas.discard("__init__")
+    areas -= {"__init__", "__main__"}
     edges: dict[tuple[str, str, str, int], Edge] = {}
     for path in sorted(app.rglob("*.py")):
         name = module_name(path, root)
@@ -132,7 +135,8 @@ def test_the_guide_lists_every_area_once_and_its_directions_have_no_cycle() -> N
     table = allowed_directions(GUIDE.read_text(encoding="utf-8"))
     app = ROOT / "app"
     on_disk = {p.stem for p in app.iterdir()
-               if (p.suffix == ".py" and p.stem != "__init__") or (p / "__init__.py").exists()}
+               if (p.suffix == ".py" and p.stem not in ("__init__", "__main__"))
+               or (p / "__init__.py").exists()}
     assert set(table) == on_disk, "DEVELOPERS.md's architecture table and app/ differ"
     unknown = {a for targets in table.values() for a in targets} - set(table)
     assert not unknown, f"DEVELOPERS.md names areas that do not exist: {sorted(unknown)}"

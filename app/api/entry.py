@@ -12,14 +12,14 @@ from typing import Any
 
 import numpy as np
 
-from app.api.inputs import as_table, is_table_like
-from app.api.models import fitted_design, model_of
-from app.api.result import Inspection
-from app.design.design import Design
-from app.design.names import quoted, suggestion
-from app.design.recipe import Recipe
-from app.tables.errors import InputError
-from app.tables.table import Table
+from rankscope.api.inputs import as_table, is_table_like
+from rankscope.api.models import fitted_design, model_of
+from rankscope.api.result import Inspection
+from rankscope.design.design import Design
+from rankscope.design.names import quoted, suggestion
+from rankscope.design.recipe import Recipe
+from rankscope.tables.errors import InputError
+from rankscope.tables.table import Table
 
 
 def _recipe(recipe: Any) -> Recipe:
@@ -66,11 +66,11 @@ def _weights(weights: Any, table: Table, kept: np.ndarray) -> np.ndarray | None:
 
 def _from_table(table: Table, response: str | None, formula: str | None, recipe: Recipe,
                 weights: Any) -> tuple[Design, np.ndarray | None]:
-    from app.design.replay import trace_design
+    from rankscope.design.replay import trace_design
 
     steps = recipe.steps
     if formula is not None:
-        from app.design.formula import formula_trace
+        from rankscope.design.formula import formula_trace
 
         lhs, tilde, _ = formula.partition("~")
         if response is not None and (not tilde or lhs.strip().strip("`") != response):
@@ -166,9 +166,9 @@ def inspect(
         if name not in design.columns:
             raise InputError(f"the design has no column named {quoted(name)}", "keep",
                              suggestion(name, design.columns))
-    from app.core.diagnosis import diagnose_factor
-    from app.core.factor import factorize
-    from app.report.remedies import remedies_of
+    from rankscope.core.diagnosis import diagnose_factor
+    from rankscope.core.factor import factorize
+    from rankscope.report.remedies import remedies_of
 
     F = factorize(design.X, design.columns, design.y, w)
     diagnosis = diagnose_factor(F, response=design.response, groups=design.groups,

@@ -14,10 +14,10 @@ import numpy as np
 import pandas as pd
 import pyarrow as pa
 
-from app.tables.build import build
-from app.tables.errors import InputError
-from app.tables.raw import Raw
-from app.tables.table import Table
+from rankscope.tables.build import build
+from rankscope.tables.errors import InputError
+from rankscope.tables.raw import Raw
+from rankscope.tables.table import Table
 
 
 def _from_arrow(table: pa.Table, where: str) -> Table:
@@ -75,7 +75,7 @@ def as_table(data: Any, names: Sequence[str] | None = None) -> Table:
     if isinstance(data, Table):
         return data
     if isinstance(data, str | os.PathLike):
-        from app.tables.read import read_table
+        from rankscope.tables.read import read_table
 
         return read_table(data)
     if isinstance(data, pd.DataFrame):

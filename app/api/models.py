@@ -9,9 +9,9 @@ from typing import Any
 
 import numpy as np
 
-from app.design.design import INTERCEPT, Design
-from app.design.names import quoted
-from app.tables.errors import InputError
+from rankscope.design.design import INTERCEPT, Design
+from rankscope.design.names import quoted
+from rankscope.tables.errors import InputError
 
 #: Names statsmodels and formulas give the constant column; rankscope calls it INTERCEPT.
 CONSTANT_NAMES = ("Intercept", "const")

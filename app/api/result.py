@@ -12,9 +12,9 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from app.core.diagnosis import Diagnosis
-from app.design.design import Design
-from app.design.recipe import Recipe
+from rankscope.core.diagnosis import Diagnosis
+from rankscope.design.design import Design
+from rankscope.design.recipe import Recipe
 
 #: Height of the report frame in a notebook; it scrolls inside and can be resized.
 FRAME_HEIGHT = 760
@@ -33,9 +33,9 @@ class Inspection:
 
     Attributes
     ----------
-    diagnosis : app.core.diagnosis.Diagnosis
+    diagnosis : rankscope.core.diagnosis.Diagnosis
         The results, as plain types.
-    design : app.design.design.Design
+    design : rankscope.design.design.Design
         The design that was diagnosed (X, columns, y, groups, rows used).
     source : str
         Where the data came from.
@@ -75,7 +75,7 @@ class Inspection:
             types: the Diagnosis' fields plus the previewed remedies, source, design, cautions
             and (empty) checks; infinite or undefined numbers are None.
         """
-        from app.report.checks import check_document, json_ready
+        from rankscope.report.checks import check_document, json_ready
 
         found = self.diagnosis.to_dict() | {"remedies": self.remedies}
         return json_ready(check_document(found, self.design, self.source, self.table_notes, []))
@@ -104,18 +104,19 @@ class Inspection:
         -------
         pandas.DataFrame
             Indexed by design column: ``vif`` (∞ in an exact dependency, NaN where the
-            column has none, such as the constant), ``tolerance`` (1/VIF) and ``note``
-            (why a column has no VIF).
+            column has none, such as the constant), ``tolerance`` (1/VIF),
+            ``se_inflation`` (√VIF: the standard error is that many times what uncorrelated
+            columns would give) and ``note`` (why a column has no VIF).
         """
         d = self.diagnosis
         rows = []
         for c in d.columns:
             if c in d.vif:
                 v = _inf(d.vif[c])
-                rows.append((c, v, d.tolerance.get(c, 0.0), ""))
+                rows.append((c, v, d.tolerance.get(c, 0.0), math.sqrt(v), ""))
             else:
-                rows.append((c, math.nan, math.nan, d.vif_absent.get(c, "")))
-        return pd.DataFrame(rows, columns=["column", "vif", "tolerance", "note"]
+                rows.append((c, math.nan, math.nan, math.nan, d.vif_absent.get(c, "")))
+        return pd.DataFrame(rows, columns=["column", "vif", "tolerance", "se_inflation", "note"]
                             ).set_index("column")
 
     def gvif_frame(self) -> pd.DataFrame:
@@ -193,7 +194,7 @@ class Inspection:
 
     def report_html(self, title: str | None = None) -> str:
         """The self-contained HTML report (plotly.js inlined; fetches nothing)."""
-        from app.report.html import render_html
+        from rankscope.report.html import render_html
 
         d = self.diagnosis.to_dict()
         notes = [*self.table_notes, *self.design.notes]
@@ -211,7 +212,7 @@ class Inspection:
 
     def text(self) -> str:
         """The full terminal report, as `rankscope check` prints it."""
-        from app.report.text import render_text
+        from rankscope.report.text import render_text
 
         return render_text(self.diagnosis.to_dict(), self.design, source=self.source,
                            notes=self.table_notes)

@@ -17,12 +17,12 @@ from typing import Any
 
 import pandas as pd
 
-from app.api.inputs import as_table, is_table_like
-from app.api.models import fitted_design, model_of
-from app.api.result import Inspection
-from app.design.design import INTERCEPT, Design
-from app.tables.errors import InputError
-from app.tables.table import Table
+from rankscope.api.inputs import as_table, is_table_like
+from rankscope.api.models import fitted_design, model_of
+from rankscope.api.result import Inspection
+from rankscope.design.design import INTERCEPT, Design
+from rankscope.tables.errors import InputError
+from rankscope.tables.table import Table
 
 HOST = "127.0.0.1"
 
@@ -51,10 +51,10 @@ def _free_port() -> int:
 def _start(port: int | None, data_dir: str | os.PathLike | None, limits: Any) -> Running:
     import uvicorn
 
-    from app.store import Store, default_root
-    from app.web.access.guard import hosts_for
-    from app.web.app import create_app
-    from app.web.server import SHUTDOWN_SECONDS, base_url
+    from rankscope.store import Store, default_root
+    from rankscope.web.access.guard import hosts_for
+    from rankscope.web.app import create_app
+    from rankscope.web.server import SHUTDOWN_SECONDS, base_url
 
     port = port or _free_port()
     store = Store(data_dir if data_dir is not None else default_root())
@@ -110,7 +110,7 @@ def _design_table(design: Design) -> tuple[Table, list[dict[str, Any]]]:
 
 def _starting_point(data: Any, response: str | None, formula: str | None, recipe: Any
                     ) -> tuple[Table, list[dict[str, Any]], str]:
-    from app.api.entry import _recipe
+    from rankscope.api.entry import _recipe
 
     if isinstance(data, Inspection):
         table, steps = _design_table(data.design)
@@ -122,7 +122,7 @@ def _starting_point(data: Any, response: str | None, formula: str | None, recipe
     table = as_table(data)
     extra = _recipe(recipe).steps
     if formula is not None:
-        from app.design.formula import start
+        from rankscope.design.formula import start
 
         begun = start(table, formula)
         return begun.table, [*begun.steps, *extra], table.source
@@ -150,7 +150,7 @@ def serve(data: Any, response: str | None = None, *, formula: str | None = None,
         The port of the server when it is started here (default: a free one).
     data_dir : path, optional
         Where sessions are kept (default ~/.rankscope, as `rankscope serve`).
-    limits : app.web.access.limits.Limits, optional
+    limits : rankscope.web.access.limits.Limits, optional
         Upload, table and time limits (default: those of `rankscope serve`).
     open_browser : bool
         Open the address in the browser as well.
@@ -161,9 +161,9 @@ def serve(data: Any, response: str | None = None, *, formula: str | None = None,
         The session's address on http://127.0.0.1, with its edit key.
     """
     global _running
-    from app.web.access.limits import Limits
-    from app.web.access.links import link
-    from app.web.routes.formulas import start_session
+    from rankscope.web.access.limits import Limits
+    from rankscope.web.access.links import link
+    from rankscope.web.routes.formulas import start_session
 
     table, steps, source = _starting_point(data, response, formula, recipe)
     limits = limits or Limits()

@@ -1,3 +1,3 @@
-"""Benchmarks and the load generator, each run as `python -m app.benchmarks.NAME`: core, read,
+"""Benchmarks and the load generator, each run as `python -m rankscope.benchmarks.NAME`: core, read,
 refit, stream, load. Measure and print only: nothing in app/ imports them, and they assert nothing.
 """

@@ -1,7 +1,7 @@
 """Speed benchmark: full diagnosis, all VIFs, edit-and-refit, blocked factorization, memory.
 
-`python -m app.benchmarks.core [--quick]` prints one table with each goal beside its measurement; it
-asserts nothing and never hides a miss.
+`python -m rankscope.benchmarks.core [--quick]` prints one table with each goal beside its
+measurement; it asserts nothing and never hides a miss.
 """
 
 from __future__ import annotations
@@ -14,12 +14,12 @@ from dataclasses import dataclass, replace
 
 import numpy as np
 
-from app.core import diagnose, factorize
-from app.core.diagnosis import diagnose_factor
-from app.design.recipe import Recipe
-from app.scale.edits import EditEngine
-from app.scale.planted import PLANTED, planted, planted_table
-from app.scale.timing import (
+from rankscope.core import diagnose, factorize
+from rankscope.core.diagnosis import diagnose_factor
+from rankscope.design.recipe import Recipe
+from rankscope.scale.edits import EditEngine
+from rankscope.scale.planted import PLANTED, planted, planted_table
+from rankscope.scale.timing import (
     THREAD_VARIABLES,
     best_of,
     machine,
@@ -190,9 +190,9 @@ def edit_rows(row_counts: list[int], p: int, repeats: int) -> list[Row]:
 def remedy_rows(n: int, p: int, repeats: int) -> list[Row]:
     """The remedy previews (every candidate, on the factor) and the rows behind the
     conditioning (exact leave-one-out) against a full diagnosis of the same design."""
-    from app.core.factor import factorize as factor_of
-    from app.design.recipe import build_design
-    from app.report.remedies import remedies_of
+    from rankscope.core.factor import factorize as factor_of
+    from rankscope.design.recipe import build_design
+    from rankscope.report.remedies import remedies_of
 
     steps = [{"step": "response", "column": "y"}]
     design = build_design(planted_table(n, p), Recipe(steps))
@@ -230,7 +230,8 @@ def render(rows: list[Row]) -> str:
 
 
 def main(argv: list[str] | None = None) -> None:
-    parser = argparse.ArgumentParser(prog="python -m app.benchmarks.core", description=__doc__)
+    parser = argparse.ArgumentParser(prog="python -m rankscope.benchmarks.core",
+                                     description=__doc__)
     parser.add_argument("--quick", action="store_true", help="small sizes, a smoke run")
     parser.add_argument("--threads", type=int, default=None,
                         help="BLAS threads (set before numpy loads, by restarting); "
@@ -238,7 +239,8 @@ def main(argv: list[str] | None = None) -> None:
     args = parser.parse_args(argv)
     if args.threads is not None and os.environ.get(THREAD_VARIABLES[0]) != str(args.threads):
         env = os.environ | {v: str(args.threads) for v in THREAD_VARIABLES}
-        os.execve(sys.executable, [sys.executable, "-m", "app.benchmarks.core", *sys.argv[1:]], env)
+        os.execve(sys.executable,
+                  [sys.executable, "-m", "rankscope.benchmarks.core", *sys.argv[1:]], env)
     mode = "quick" if args.quick else "full"
     for line in machine():
         print(line)

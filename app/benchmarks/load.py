@@ -1,7 +1,7 @@
 """Load driver: a real rankscope server in a child process on loopback, N virtual users
 uploading, opening and editing the demo table at once for a bounded time; prints one table.
 
-    python -m app.benchmarks.load [--sessions 20] [--seconds 30] [--think 0]
+    python -m rankscope.benchmarks.load [--sessions 20] [--seconds 30] [--think 0]
 
 Exit code 1 when any request failed (anything but 2xx or an expected 409, or no answer).
 """
@@ -18,9 +18,9 @@ import time
 from dataclasses import dataclass
 from pathlib import Path
 
-from app.benchmarks.load_stats import Row, summarize, table_text
-from app.benchmarks.load_user import DEMO, Recorder, guarded_user
-from app.web.spawn import LiveServer
+from rankscope.benchmarks.load_stats import Row, summarize, table_text
+from rankscope.benchmarks.load_user import DEMO, Recorder, guarded_user
+from rankscope.web.spawn import LiveServer
 
 
 @dataclass(frozen=True)
@@ -66,8 +66,8 @@ def machine() -> str:
 
 
 def main(argv: list[str] | None = None) -> int:
-    ap = argparse.ArgumentParser(prog="python -m app.benchmarks.load", description=__doc__.split(
-        "\n")[0])
+    ap = argparse.ArgumentParser(prog="python -m rankscope.benchmarks.load",
+                                 description=__doc__.split("\n")[0])
     ap.add_argument("--sessions", type=int, default=20, help="concurrent virtual users")
     ap.add_argument("--seconds", type=float, default=30.0, help="how long they edit")
     ap.add_argument("--think", type=float, default=0.0,
@@ -75,7 +75,7 @@ def main(argv: list[str] | None = None) -> int:
     args = ap.parse_args(argv)
     print(f"machine: {machine()} at start", flush=True)
     print(f"load: {args.sessions} sessions on {DEMO.name} for {args.seconds:g} s, think "
-          f"{args.think:g} s; server: python -m app.cli serve on 127.0.0.1", flush=True)
+          f"{args.think:g} s; server: python -m rankscope.cli serve on 127.0.0.1", flush=True)
     result = run(args.sessions, args.seconds, args.think)
     print(f"measured over {result.wall_seconds:.1f} s; machine at end: {machine()}")
     print(table_text(result.rows))

@@ -14,7 +14,7 @@ from typing import Any
 
 import httpx
 
-from app.benchmarks.load_stats import Sample, is_error
+from rankscope.benchmarks.load_stats import Sample, is_error
 
 DEMO = Path(__file__).resolve().parents[2] / "demo_data" / "cold_storage.csv"
 RESPONSE = "energy_kwh"

@@ -1,6 +1,6 @@
 """Read benchmark: read_table against pandas.read_csv (default options) on the same CSV file.
 
-    python -m app.benchmarks.read [--mb 100] [--repeat 3]
+    python -m rankscope.benchmarks.read [--mb 100] [--repeat 3]
 
 Writes a CSV of about --mb MB into a temporary folder (6 float columns at full precision, 2
 integer columns, 3 text columns with 3-50 levels, a yes/no column, about 1% empty cells in one
@@ -20,7 +20,7 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from app.tables.read import read_table
+from rankscope.tables.read import read_table
 
 GOAL = 2.0
 

@@ -1,6 +1,6 @@
 """Benchmark: server time of a linear and a nonlinear design change + refit vs a full analysis.
 
-Times the same calls the web app makes (python -m app.benchmarks.refit); asserts nothing.
+Times the same calls the web app makes (python -m rankscope.benchmarks.refit); asserts nothing.
 """
 
 from __future__ import annotations
@@ -15,14 +15,14 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from app.core import diagnose
-from app.design.recipe import Recipe, build_design
-from app.store import Store
-from app.tables.read import read_table
-from app.web.analyst import Analyst
-from app.web.rendering.render import workspace_html
-from app.web.state import Change
-from app.web.stored import StoredSessions
+from rankscope.core import diagnose
+from rankscope.design.recipe import Recipe, build_design
+from rankscope.store import Store
+from rankscope.tables.read import read_table
+from rankscope.web.analyst import Analyst
+from rankscope.web.rendering.render import workspace_html
+from rankscope.web.state import Change
+from rankscope.web.stored import StoredSessions
 
 ROOT = Path(__file__).resolve().parents[2]
 DEMO = ROOT / "demo_data" / "cold_storage.csv"

@@ -1,7 +1,7 @@
 """Memory benchmark for streaming: write a large CSV with planted collinearity, stream it in a
 child process, report its peak memory against the goal (5 GB of CSV under 1.5 GB of memory).
 
-A script (python -m app.benchmarks.stream --gb 5); the file lives in a temporary folder that
+A script (python -m rankscope.benchmarks.stream --gb 5); the file lives in a temporary folder that
 is deleted afterwards. Not imported by the app.
 """
 
@@ -63,8 +63,8 @@ def write_csv(path: Path, size: int, seed: int = 0) -> int:
 
 def child(path: str) -> None:
     """Stream the file and print what was found with this process's peak memory (JSON)."""
-    from app.core.diagnosis import diagnose_factor
-    from app.scale.stream import stream_factor
+    from rankscope.core.diagnosis import diagnose_factor
+    from rankscope.scale.stream import stream_factor
 
     started = time.monotonic()
     F, info = stream_factor(path, [{"step": "response", "column": "y"}])
@@ -94,7 +94,7 @@ def planted_found(deps: list[dict]) -> bool:
 
 
 def main(argv: list[str] | None = None) -> int:
-    ap = argparse.ArgumentParser(prog="python -m app.benchmarks.stream",
+    ap = argparse.ArgumentParser(prog="python -m rankscope.benchmarks.stream",
                                  description="Peak memory of streaming a large CSV.")
     size = ap.add_mutually_exclusive_group()
     size.add_argument("--gb", type=float, help="file size in GB (1e9 bytes)")
@@ -120,7 +120,7 @@ def main(argv: list[str] | None = None) -> int:
         written = path.stat().st_size
         print(f"wrote {written / 1e6:,.0f} MB of CSV, {rows:,} rows, in "
               f"{time.monotonic() - t0:.0f} s")
-        out = subprocess.run([sys.executable, "-m", "app.benchmarks.stream", "--child",
+        out = subprocess.run([sys.executable, "-m", "rankscope.benchmarks.stream", "--child",
                               str(path)], capture_output=True, text=True, check=False)
         if out.returncode != 0:
             print(out.stderr, file=sys.stderr)

@@ -3,7 +3,7 @@
 Imports numpy and scipy only: no pandas, no I/O, no web types.
 """
 
-from app.core.diagnosis import Diagnosis, diagnose
-from app.core.factor import Factorization, factorize
+from rankscope.core.diagnosis import Diagnosis, diagnose
+from rankscope.core.factor import Factorization, factorize
 
 __all__ = ["Diagnosis", "Factorization", "diagnose", "factorize"]

@@ -1,7 +1,7 @@
 """The basis factor: one QR of the chosen basis columns followed by the dependent ones.
 
 Works on the small (p, p) factor only; no names beyond indices, no I/O. Which columns
-form the basis is decided in app.core.rank.
+form the basis is decided in rankscope.core.rank.
 """
 
 from __future__ import annotations

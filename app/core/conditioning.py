@@ -8,8 +8,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from app.core.factor import column_norms
-from app.core.rank import default_tolerance
+from rankscope.core.factor import column_norms
+from rankscope.core.rank import default_tolerance
 
 __all__ = ["default_tolerance"]
 

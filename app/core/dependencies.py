@@ -11,8 +11,8 @@ import numpy as np
 from scipy.linalg import solve_triangular
 from scipy.linalg.blas import dnrm2  # scaled: no underflow for 1e-200, no overflow
 
-from app.core.basis import Basis
-from app.core.numbers import short_number
+from rankscope.core.basis import Basis
+from rankscope.core.numbers import short_number
 
 EPS = float(np.finfo(np.float64).eps)
 

@@ -10,16 +10,16 @@ from dataclasses import dataclass, field, fields
 import numpy as np
 from threadpoolctl import threadpool_limits
 
-from app.core import conditioning as cnd
-from app.core.correlation import cluster_order, pearson_from_factor, spearman
-from app.core.dependencies import data_residual, null_vectors, relations
-from app.core.factor import Factorization, factorize
-from app.core.fit import fit_least_squares
-from app.core.inflation import gvif, vif_from_factor
-from app.core.influence import leave_one_out
-from app.core.numbers import finite_or_none
-from app.core.rank import EPS, decide, default_tolerance
-from app.core.ridge import DEFAULT_GRID, ridge_path
+from rankscope.core import conditioning as cnd
+from rankscope.core.correlation import cluster_order, pearson_from_factor, spearman
+from rankscope.core.dependencies import data_residual, null_vectors, relations
+from rankscope.core.factor import Factorization, factorize
+from rankscope.core.fit import fit_least_squares
+from rankscope.core.inflation import gvif, vif_from_factor
+from rankscope.core.influence import leave_one_out
+from rankscope.core.numbers import finite_or_none
+from rankscope.core.rank import EPS, decide, default_tolerance
+from rankscope.core.ridge import DEFAULT_GRID, ridge_path
 
 TOLERANCE_RULE = "σ_max(Xe)·max(n, p)·eps (Golub & Van Loan §5.4.1; as numpy.linalg.matrix_rank)"
 

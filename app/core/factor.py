@@ -10,7 +10,7 @@ from functools import cached_property
 
 import numpy as np
 
-from app.core.reduce import block_rows, reduce_blocks, shifts_of, unshift
+from rankscope.core.reduce import block_rows, reduce_blocks, shifts_of, unshift
 
 EPS = float(np.finfo(np.float64).eps)
 #: Column magnitudes the core accepts: below SMALLEST float64 loses digits towards the

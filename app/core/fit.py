@@ -10,10 +10,10 @@ import numpy as np
 from scipy import stats
 from scipy.linalg import qr, solve_triangular
 
-from app.core.basis import Basis, basis_factor
-from app.core.dependencies import Relation
-from app.core.factor import EPS, Factorization, column_norms
-from app.core.numbers import finite_or_none, short_number
+from rankscope.core.basis import Basis, basis_factor
+from rankscope.core.dependencies import Relation
+from rankscope.core.factor import EPS, Factorization, column_norms
+from rankscope.core.numbers import finite_or_none, short_number
 
 #: Refinement runs when the rows are kept and either the problem is small (n·k below
 #: this many entries) or the basis' condition number exceeds REFINE_COND. QR alone gives

@@ -100,7 +100,7 @@ def _factor(X: np.ndarray, B: np.ndarray, sb: np.ndarray,
             sw: np.ndarray | None) -> np.ndarray:
     """(r, r) triangular factor of the (weighted) X[:, B]/sb by blocks (same singular
     values and V)."""
-    from app.core.reduce import reduce_blocks
+    from rankscope.core.reduce import reduce_blocks
 
     def blocks():
         for s in range(0, X.shape[0], BLOCK):

@@ -10,9 +10,9 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from app.core.diagnosis import Diagnosis, diagnose_factor
-from app.core.factor import Factorization
-from app.core.workspace import CONSTANT, Workspace
+from rankscope.core.diagnosis import Diagnosis, diagnose_factor
+from rankscope.core.factor import Factorization
+from rankscope.core.workspace import CONSTANT, Workspace
 
 
 @dataclass(frozen=True)

@@ -8,7 +8,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from app.core.basis import Basis, basis_factor
+from rankscope.core.basis import Basis, basis_factor
 
 EPS = float(np.finfo(np.float64).eps)
 
@@ -37,7 +37,7 @@ class RankDecision:
     rank: number of singular values of Xe above tol. singular_values: (p,) descending.
     null: (p, p − rank) orthonormal basis of the numerical null space (right singular
         vectors of the singular values at or below tol).
-    basis: the Basis factor (app.core.basis) with exactly `rank` basis columns, constant
+    basis: the Basis factor (rankscope.core.basis) with exactly `rank` basis columns, constant
         columns first, then the caller's priority order; the p − rank others dependent.
     """
 

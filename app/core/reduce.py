@@ -11,7 +11,8 @@ import numpy as np
 from scipy.linalg import lapack
 
 #: Rows per block: about 2 MiB of float64 per block (cache-sized: 20-25% faster than
-#: 8 MiB at 200,000 × 100 and 1,000,000 × 50, python -m app.bench), never under 1024 rows.
+#: 8 MiB at 200,000 × 100 and 1,000,000 × 50, python -m rankscope.benchmarks.core), never
+#: under 1024 rows.
 BLOCK_BYTES = 2 * 2**20
 
 

@@ -9,7 +9,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from app.core.factor import EPS, Factorization
+from rankscope.core.factor import EPS, Factorization
 
 #: Default grid of penalties, in correlation-scale units (columns of unit length, so
 #: XᵀX is the correlation matrix): 0 and 25 values from 1e-4 to 1. Hoerl & Kennard

@@ -10,8 +10,8 @@ from dataclasses import dataclass, replace
 
 import numpy as np
 
-from app.core.factor import Factorization
-from app.core.reduce import square_factor, upper_sign_fixed
+from rankscope.core.factor import Factorization
+from rankscope.core.reduce import square_factor, upper_sign_fixed
 
 #: Name of the constant in combinations passed to Workspace.add.
 CONSTANT = "(intercept)"

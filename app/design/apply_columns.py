@@ -10,10 +10,10 @@ from typing import Any
 
 import numpy as np
 
-from app.design.names import number_text, quoted
-from app.design.steps import output_name
-from app.design.working import Col, WorkingColumns, derived
-from app.tables.errors import InputError
+from rankscope.design.names import number_text, quoted
+from rankscope.design.steps import output_name
+from rankscope.design.working import Col, WorkingColumns, derived
+from rankscope.tables.errors import InputError
 
 Result = tuple[np.ndarray, str | None]
 

@@ -9,10 +9,10 @@ from typing import Any
 
 import numpy as np
 
-from app.design.apply_columns import check_finite
-from app.design.names import number_text, quoted
-from app.design.working import PREDICTOR, RESPONSE, Col, WorkingColumns, derived
-from app.tables.errors import InputError
+from rankscope.design.apply_columns import check_finite
+from rankscope.design.names import number_text, quoted
+from rankscope.design.working import PREDICTOR, RESPONSE, Col, WorkingColumns, derived
+from rankscope.tables.errors import InputError
 
 
 def apply_product(working: WorkingColumns, step: dict[str, Any]) -> list[Col]:

@@ -9,9 +9,9 @@ from typing import Any
 
 import numpy as np
 
-from app.design.names import number_text, quoted
-from app.design.working import RESPONSE, Col, WorkingColumns, derived
-from app.tables.errors import InputError
+from rankscope.design.names import number_text, quoted
+from rankscope.design.working import RESPONSE, Col, WorkingColumns, derived
+from rankscope.tables.errors import InputError
 
 EPOCH = np.datetime64("1970-01-01T00:00:00", "ns")
 

@@ -7,10 +7,10 @@ from __future__ import annotations
 
 from typing import Any
 
-from app.design.names import level_order, quoted, suggestion
-from app.design.steps import ALL_LEVELS
-from app.design.working import DROPPED, PREDICTOR, RESPONSE, Col, WorkingColumns
-from app.tables.errors import InputError
+from rankscope.design.names import level_order, quoted, suggestion
+from rankscope.design.steps import ALL_LEVELS
+from rankscope.design.working import DROPPED, PREDICTOR, RESPONSE, Col, WorkingColumns
+from rankscope.tables.errors import InputError
 
 _CLEAR = '{"step": "response", "column": null}'
 

@@ -9,12 +9,12 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from app.design.apply_roles import levels_of
-from app.design.design import INTERCEPT
-from app.design.names import quoted
-from app.design.steps import ALL_LEVELS
-from app.design.working import PREDICTOR, Col, WorkingColumns
-from app.tables.errors import InputError
+from rankscope.design.apply_roles import levels_of
+from rankscope.design.design import INTERCEPT
+from rankscope.design.names import quoted
+from rankscope.design.steps import ALL_LEVELS
+from rankscope.design.working import PREDICTOR, Col, WorkingColumns
+from rankscope.tables.errors import InputError
 
 #: Values beyond this magnitude are refused: the core squares values on the way to the
 #: factor, and squares above ~1.3e154 overflow IEEE 754 double precision (max ~1.8e308).

@@ -1,6 +1,6 @@
 """The Design: the numbers the numerical core needs, with names and groups.
 
-Plain data; built by the recipe, consumed by app.core.
+Plain data; built by the recipe, consumed by rankscope.core.
 """
 
 from __future__ import annotations

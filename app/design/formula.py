@@ -15,13 +15,13 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from app.design.design import INTERCEPT, Design
-from app.design.names import quoted, suggestion
-from app.design.recipe import Recipe
-from app.design.replay import trace_design
-from app.tables.errors import InputError
-from app.tables.raw import row_label
-from app.tables.table import Table
+from rankscope.design.design import INTERCEPT, Design
+from rankscope.design.names import quoted, suggestion
+from rankscope.design.recipe import Recipe
+from rankscope.design.replay import trace_design
+from rankscope.tables.errors import InputError
+from rankscope.tables.raw import row_label
+from rankscope.tables.table import Table
 
 #: formulaic's name for the constant column; rankscope calls it INTERCEPT everywhere.
 FORMULAIC_INTERCEPT = "Intercept"

@@ -10,12 +10,12 @@ import json
 from collections.abc import Iterable, Iterator
 from typing import Any
 
-from app.design.design import Design
-from app.design.names import quoted
-from app.design.replay import trace_design
-from app.design.steps import validate_step
-from app.tables.errors import InputError
-from app.tables.table import Table
+from rankscope.design.design import Design
+from rankscope.design.names import quoted
+from rankscope.design.replay import trace_design
+from rankscope.design.steps import validate_step
+from rankscope.tables.errors import InputError
+from rankscope.tables.table import Table
 
 FORMAT = "rankscope-recipe"
 VERSION = 1

@@ -11,10 +11,10 @@ from typing import Any
 
 import numpy as np
 
-from app.design.apply_columns import apply_single
-from app.design.apply_groups import apply_combine, apply_product
-from app.design.apply_kind import apply_kind
-from app.design.apply_roles import (
+from rankscope.design.apply_columns import apply_single
+from rankscope.design.apply_groups import apply_combine, apply_product
+from rankscope.design.apply_kind import apply_kind
+from rankscope.design.apply_roles import (
     apply_drop,
     apply_indicators,
     apply_intercept,
@@ -22,13 +22,13 @@ from app.design.apply_roles import (
     apply_response,
     apply_restore,
 )
-from app.design.assemble import Plan, assemble, keep_rows, make_plan
-from app.design.design import Design
-from app.design.names import quoted
-from app.design.steps import SINGLE_COLUMN
-from app.design.working import Col, WorkingColumns
-from app.tables.errors import InputError
-from app.tables.table import Table
+from rankscope.design.assemble import Plan, assemble, keep_rows, make_plan
+from rankscope.design.design import Design
+from rankscope.design.names import quoted
+from rankscope.design.steps import SINGLE_COLUMN
+from rankscope.design.working import Col, WorkingColumns
+from rankscope.tables.errors import InputError
+from rankscope.tables.table import Table
 
 Apply = Callable[[WorkingColumns, dict[str, Any]], list[Col]]
 

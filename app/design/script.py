@@ -8,13 +8,13 @@ from __future__ import annotations
 import re
 from typing import Any
 
-from app.design.design import INTERCEPT
-from app.design.names import number_text
-from app.design.recipe import Recipe
-from app.design.replay import Trace, trace_design
-from app.design.steps import describe_step
-from app.design.working import Col
-from app.tables.table import Table
+from rankscope.design.design import INTERCEPT
+from rankscope.design.names import number_text
+from rankscope.design.recipe import Recipe
+from rankscope.design.replay import Trace, trace_design
+from rankscope.design.steps import describe_step
+from rankscope.design.working import Col
+from rankscope.tables.table import Table
 
 _HELPERS = {
     "flags": '''def flags(s):

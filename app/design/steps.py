@@ -10,8 +10,8 @@ import sys
 from dataclasses import dataclass
 from typing import Any
 
-from app.design.names import close_matches, number_text, quoted, suggestion
-from app.tables.errors import InputError
+from rankscope.design.names import close_matches, number_text, quoted, suggestion
+from rankscope.tables.errors import InputError
 
 ALL_LEVELS = "all"
 COMBINE_METHODS = ("sum", "mean", "difference", "ratio", "first_component")

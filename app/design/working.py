@@ -10,10 +10,10 @@ from dataclasses import dataclass, field
 import numpy as np
 import pandas as pd
 
-from app.design.design import INTERCEPT
-from app.design.names import file_row, quoted, suggestion
-from app.tables.errors import InputError
-from app.tables.table import KINDS, Table
+from rankscope.design.design import INTERCEPT
+from rankscope.design.names import file_row, quoted, suggestion
+from rankscope.tables.errors import InputError
+from rankscope.tables.table import KINDS, Table
 
 PREDICTOR = "predictor"
 DROPPED = "dropped"

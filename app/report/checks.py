@@ -12,9 +12,9 @@ from collections.abc import Callable
 from dataclasses import dataclass
 from typing import Any
 
-from app.design.design import Design
-from app.report.cautions import choose_cautions
-from app.tables.errors import InputError
+from rankscope.design.design import Design
+from rankscope.report.cautions import choose_cautions
+from rankscope.tables.errors import InputError
 
 EXIT_OK = 0
 EXIT_CROSSED = 1

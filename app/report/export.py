@@ -10,12 +10,12 @@ import io
 import re
 from collections.abc import Iterator
 
-from app.design.design import Design
-from app.design.recipe import Recipe, build_design
-from app.design.script import recipe_to_python
-from app.report.html import render_html
-from app.tables.errors import InputError
-from app.tables.table import Table
+from rankscope.design.design import Design
+from rankscope.design.recipe import Recipe, build_design
+from rankscope.design.script import recipe_to_python
+from rankscope.report.html import render_html
+from rankscope.tables.errors import InputError
+from rankscope.tables.table import Table
 
 __all__ = ["render_html", "recipe_json", "recipe_script", "design_csv", "design_csv_chunks",
            "neutralize", "import_recipe", "download_name", "MAX_RECIPE_BYTES"]

@@ -8,7 +8,7 @@ from __future__ import annotations
 import math
 from typing import Any
 
-from app.report.cautions import VIF_MARK
+from rankscope.report.cautions import VIF_MARK
 
 Figure = dict[str, Any]
 

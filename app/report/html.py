@@ -15,10 +15,10 @@ from functools import lru_cache
 
 from plotly.offline import get_plotlyjs
 
-from app.design.recipe import Recipe
-from app.design.steps import describe_step
-from app.report import html_sections as sec
-from app.report.figures import BRICK, GRID, INK, PAPER, TEAL, all_figures
+from rankscope.design.recipe import Recipe
+from rankscope.design.steps import describe_step
+from rankscope.report import html_sections as sec
+from rankscope.report.figures import BRICK, GRID, INK, PAPER, TEAL, all_figures
 
 #: Which figures the report draws, by the id of the chart slot they fill.
 CHARTS = ("spectrum", "inflation", "correlation", "ridge")

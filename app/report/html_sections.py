@@ -9,8 +9,8 @@ import math
 from collections.abc import Sequence
 from html import escape
 
-from app.report.cautions import VIF_MARK, choose_cautions
-from app.report.text import INF, NONE, flagged_dimensions, num, p_value
+from rankscope.report.cautions import VIF_MARK, choose_cautions
+from rankscope.report.text import INF, NONE, flagged_dimensions, num, p_value
 
 
 def esc(value: object) -> str:

@@ -1,7 +1,7 @@
 """The remedies a design offers, each previewed before it is applied.
 
 Builds the candidate changes (in recipe words, with the matching linear change for the
-core) from one diagnosis and the design's recipe; the numbers come from app.core.preview.
+core) from one diagnosis and the design's recipe; the numbers come from rankscope.core.preview.
 """
 
 from __future__ import annotations
@@ -12,10 +12,10 @@ from typing import Any
 
 import numpy as np
 
-from app.core.diagnosis import Diagnosis
-from app.core.factor import Factorization
-from app.core.preview import Change, preview, summarize
-from app.core.workspace import CONSTANT
+from rankscope.core.diagnosis import Diagnosis
+from rankscope.core.factor import Factorization
+from rankscope.core.preview import Change, preview, summarize
+from rankscope.core.workspace import CONSTANT
 
 #: At most this many candidates are previewed (equations first, then flagged dimensions,
 #: then centring): each costs one analysis of the small factor.
@@ -238,7 +238,7 @@ def categorical_groups(groups: dict[str, list[str]], references: dict[str, str]
 
 def remedies_of(d: Diagnosis, F: Factorization, design: Any, steps: list[dict[str, Any]],
                 keep: list[str] | None, tol: float | None) -> list[dict]:
-    """The previewed remedies of a design built by a recipe (app.design.Design)."""
+    """The previewed remedies of a design built by a recipe (rankscope.design.Design)."""
     coded = categorical_groups(design.groups, design.references)
     indicator = {c for cols in coded.values() for c in cols}
     predictors = {c for c in design.columns if c not in indicator and c != CONSTANT}

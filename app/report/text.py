@@ -11,8 +11,8 @@ import textwrap
 
 import numpy as np
 
-from app.design.design import Design
-from app.report.cautions import VIF_MARK, choose_cautions
+from rankscope.design.design import Design
+from rankscope.report.cautions import VIF_MARK, choose_cautions
 
 WIDTH = 100
 #: What a terminal would act on instead of showing: C0 and C1 controls but the line feed

@@ -3,7 +3,7 @@
 Imports core, design and tables; reads rows only when it factors or falls back to a rebuild.
 """
 
-from app.scale.edits import EditEngine, Outcome
-from app.scale.ledger import Layout, Rebuild
+from rankscope.scale.edits import EditEngine, Outcome
+from rankscope.scale.ledger import Layout, Rebuild
 
 __all__ = ["EditEngine", "Layout", "Outcome", "Rebuild"]

@@ -12,15 +12,15 @@ from typing import Any
 import pyarrow as pa
 import pyarrow.parquet as pq
 
-from app.core.factor import Factorization
-from app.design.recipe import Recipe
-from app.scale.stream import BLOCK_ROWS, StreamInfo, _as_recipe
-from app.scale.stream_finish import finish, learn
-from app.scale.stream_forms import Frozen
-from app.scale.stream_partial import Partial
-from app.scale.stream_replay import Replay
-from app.scale.stream_source import SAMPLE_ROWS, parquet_table
-from app.tables.errors import InputError
+from rankscope.core.factor import Factorization
+from rankscope.design.recipe import Recipe
+from rankscope.scale.stream import BLOCK_ROWS, StreamInfo, _as_recipe
+from rankscope.scale.stream_finish import finish, learn
+from rankscope.scale.stream_forms import Frozen
+from rankscope.scale.stream_partial import Partial
+from rankscope.scale.stream_replay import Replay
+from rankscope.scale.stream_source import SAMPLE_ROWS, parquet_table
+from rankscope.tables.errors import InputError
 
 PARQUET_SUFFIXES = (".parquet", ".parq", ".pq")
 
@@ -80,7 +80,7 @@ def _kinds(first: Piece, where: str, declared: dict[str, str] | None) -> dict[st
     batch = next(pq.ParquetFile(first.path).iter_batches(batch_size=SAMPLE_ROWS))
     table = parquet_table(batch, 0, where, None)
     if declared:
-        from app.tables.kinds import with_kinds
+        from rankscope.tables.kinds import with_kinds
 
         table = with_kinds(table, declared)
     return dict(table.kinds)

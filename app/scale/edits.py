@@ -8,15 +8,15 @@ from __future__ import annotations
 from dataclasses import dataclass, replace
 from typing import Any, Literal
 
-from app.core.diagnosis import Diagnosis, diagnose_factor
-from app.core.factor import Factorization
-from app.design.design import Design
-from app.design.recipe import Recipe
-from app.scale.ledger import Layout, Ledger, Rebuild
-from app.scale.linear import State, apply_linear
-from app.scale.start import start
-from app.scale.store import Store
-from app.tables.table import Table
+from rankscope.core.diagnosis import Diagnosis, diagnose_factor
+from rankscope.core.factor import Factorization
+from rankscope.design.design import Design
+from rankscope.design.recipe import Recipe
+from rankscope.scale.ledger import Layout, Ledger, Rebuild
+from rankscope.scale.linear import State, apply_linear
+from rankscope.scale.start import start
+from rankscope.scale.store import Store
+from rankscope.tables.table import Table
 
 Path = Literal["factor", "rebuild"]
 

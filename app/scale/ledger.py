@@ -1,6 +1,6 @@
 """The ledger: the recipe's working columns as names, roles and placement, without any rows.
 
-Mirrors the rules of app.design (working, assemble) on metadata only; holds no values.
+Mirrors the rules of rankscope.design (working, assemble) on metadata only; holds no values.
 """
 
 from __future__ import annotations
@@ -8,10 +8,10 @@ from __future__ import annotations
 from collections.abc import Iterable
 from dataclasses import dataclass, replace
 
-from app.core.workspace import CONSTANT
-from app.design.design import INTERCEPT
-from app.design.steps import ALL_LEVELS
-from app.design.working import DROPPED, PREDICTOR, RESPONSE
+from rankscope.core.workspace import CONSTANT
+from rankscope.design.design import INTERCEPT
+from rankscope.design.steps import ALL_LEVELS
+from rankscope.design.working import DROPPED, PREDICTOR, RESPONSE
 
 
 class Rebuild(Exception):

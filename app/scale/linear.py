@@ -10,12 +10,12 @@ from typing import Any
 
 import numpy as np
 
-from app.core.workspace import CONSTANT
-from app.design.steps import output_name
-from app.design.working import PREDICTOR, RESPONSE
-from app.scale.ledger import Entry, Ledger, Rebuild
-from app.scale.start import held_id
-from app.scale.store import Store
+from rankscope.core.workspace import CONSTANT
+from rankscope.design.steps import output_name
+from rankscope.design.working import PREDICTOR, RESPONSE
+from rankscope.scale.ledger import Entry, Ledger, Rebuild
+from rankscope.scale.start import held_id
+from rankscope.scale.store import Store
 
 #: Steps done on the factor; the others (log, power, product, kind, missing) reach rows.
 LINEAR = ("response", "intercept", "drop", "restore", "indicators", "center", "standardize",
@@ -39,7 +39,7 @@ class State:
 
 
 def _new_entry(state: State, name: str, parents: list[Entry]) -> Entry:
-    """As app.design.working.derived: a numeric column inheriting sources and problems."""
+    """As rankscope.design.working.derived: a numeric column inheriting sources and problems."""
     sources = frozenset().union(*(p.sources for p in parents))
     problem = next((p.problem for p in parents if p.problem), None)
     return Entry(key=state.next_key, name=name, kind="numeric", sources=sources,

@@ -1,6 +1,6 @@
 """Peak memory of one in-memory diagnosis, measured in a fresh process with tracemalloc.
 
-Run as `python -m app.scale.memory N P SEED`; prints one JSON line. Times nothing.
+Run as `python -m rankscope.scale.memory N P SEED`; prints one JSON line. Times nothing.
 """
 
 from __future__ import annotations
@@ -9,8 +9,8 @@ import json
 import sys
 import tracemalloc
 
-from app.core import diagnose
-from app.scale.planted import planted
+from rankscope.core import diagnose
+from rankscope.scale.planted import planted
 
 
 def main(argv: list[str]) -> None:

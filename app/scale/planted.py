@@ -8,8 +8,8 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
-from app.design.design import INTERCEPT
-from app.tables.table import Table
+from rankscope.design.design import INTERCEPT
+from rankscope.tables.table import Table
 
 #: What is planted (columns counted from 0; column 0 is the intercept).
 PLANTED = "x2 = 2.5·x1 (a multiple), x6 = x3 + x4 + x5 (a sum of three), x8 ≈ x7 (a near pair)"

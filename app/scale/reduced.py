@@ -14,12 +14,12 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from app.core.factor import Factorization
-from app.scale.dask_engine import dask_stream, pieces
-from app.scale.stream import StreamInfo
-from app.scale.stream_finish import Layout
-from app.tables.errors import InputError
-from app.tables.table import Table
+from rankscope.core.factor import Factorization
+from rankscope.scale.dask_engine import dask_stream, pieces
+from rankscope.scale.stream import StreamInfo
+from rankscope.scale.stream_finish import Layout
+from rankscope.tables.errors import InputError
+from rankscope.tables.table import Table
 
 #: Ends the file name of a reduced session, by engine, so a later run can tell them apart.
 MARKS = {"dask": " (reduced on Dask)", "stream": " (reduced by streaming)"}

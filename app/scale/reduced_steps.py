@@ -1,5 +1,5 @@
 """Recipe steps a reduced session takes on its factor alone: drop, restore, intercept and the
-linear steps of app.scale.linear, with the recipe's names and placement. Reads no rows.
+linear steps of rankscope.scale.linear, with the recipe's names and placement. Reads no rows.
 """
 
 from __future__ import annotations
@@ -9,19 +9,19 @@ from typing import Any
 
 import numpy as np
 
-from app.core.factor import Factorization
-from app.core.workspace import Workspace
-from app.design.design import INTERCEPT
-from app.design.names import quoted
-from app.design.recipe import Recipe
-from app.design.steps import ALL_LEVELS, output_name
-from app.design.working import DROPPED, PREDICTOR, RESPONSE, Col, WorkingColumns
-from app.scale.ledger import Entry, Layout, Ledger, Rebuild
-from app.scale.linear import State, apply_linear
-from app.scale.reduced import Reduced
-from app.scale.start import held_id
-from app.scale.store import Store
-from app.tables.errors import InputError
+from rankscope.core.factor import Factorization
+from rankscope.core.workspace import Workspace
+from rankscope.design.design import INTERCEPT
+from rankscope.design.names import quoted
+from rankscope.design.recipe import Recipe
+from rankscope.design.steps import ALL_LEVELS, output_name
+from rankscope.design.working import DROPPED, PREDICTOR, RESPONSE, Col, WorkingColumns
+from rankscope.scale.ledger import Entry, Layout, Ledger, Rebuild
+from rankscope.scale.linear import State, apply_linear
+from rankscope.scale.reduced import Reduced
+from rankscope.scale.start import held_id
+from rankscope.scale.store import Store
+from rankscope.tables.errors import InputError
 
 #: The design steps a reduced session can take on its factor alone.
 FACTOR_STEPS = ("drop", "restore", "intercept", "center", "standardize", "unit_length",

@@ -11,12 +11,12 @@ from collections.abc import Callable
 from pathlib import Path
 from typing import Any
 
-from app.design.names import quoted, suggestion
-from app.design.recipe import Recipe
-from app.scale.reduced import Reduced
-from app.scale.stream import BLOCK_ROWS, Cancelled, stream_source
-from app.scale.stream_source import open_source
-from app.tables.errors import InputError
+from rankscope.design.names import quoted, suggestion
+from rankscope.design.recipe import Recipe
+from rankscope.scale.reduced import Reduced
+from rankscope.scale.stream import BLOCK_ROWS, Cancelled, stream_source
+from rankscope.scale.stream_source import open_source
+from rankscope.tables.errors import InputError
 
 log = logging.getLogger(__name__)
 

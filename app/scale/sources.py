@@ -7,14 +7,14 @@ from __future__ import annotations
 from dataclasses import dataclass
 from typing import Any
 
-from app.core.factor import Factorization
-from app.design.recipe import Recipe
-from app.scale.edits import EditEngine
-from app.scale.ledger import Layout, Ledger
-from app.scale.reduced import Reduced
-from app.scale.reduced_steps import fold, takes_without_rows
-from app.tables.errors import InputError
-from app.tables.table import Table
+from rankscope.core.factor import Factorization
+from rankscope.design.recipe import Recipe
+from rankscope.scale.edits import EditEngine
+from rankscope.scale.ledger import Layout, Ledger
+from rankscope.scale.reduced import Reduced
+from rankscope.scale.reduced_steps import fold, takes_without_rows
+from rankscope.tables.errors import InputError
+from rankscope.tables.table import Table
 
 #: What a page says about everything a factor without rows cannot give.
 NO_ROWS_NOTE = ("Reduced without holding the rows: this analysis comes from the dataset's "

@@ -1,6 +1,6 @@
 """Starting point of the edit engine: replay the recipe once, hold every usable column's factor.
 
-The one place in app.scale that reads rows; edits after it work on the factor alone.
+The one place in rankscope.scale that reads rows; edits after it work on the factor alone.
 """
 
 from __future__ import annotations
@@ -11,16 +11,16 @@ from dataclasses import dataclass
 import numpy as np
 import pandas as pd
 
-from app.core.reduce import block_rows, reduce_blocks, shifts_of, unshift
-from app.core.workspace import Workspace
-from app.design.apply_roles import levels_of
-from app.design.design import Design
-from app.design.recipe import Recipe
-from app.design.replay import run_steps, trace_design
-from app.design.working import Col, WorkingColumns
-from app.scale.ledger import Entry, Ledger
-from app.scale.store import Store
-from app.tables.table import Table
+from rankscope.core.reduce import block_rows, reduce_blocks, shifts_of, unshift
+from rankscope.core.workspace import Workspace
+from rankscope.design.apply_roles import levels_of
+from rankscope.design.design import Design
+from rankscope.design.recipe import Recipe
+from rankscope.design.replay import run_steps, trace_design
+from rankscope.design.working import Col, WorkingColumns
+from rankscope.scale.ledger import Entry, Ledger
+from rankscope.scale.store import Store
+from rankscope.tables.table import Table
 
 
 @dataclass(frozen=True)

@@ -10,8 +10,8 @@ from dataclasses import dataclass, replace
 
 import numpy as np
 
-from app.core.workspace import CONSTANT, Workspace
-from app.scale.ledger import Rebuild
+from rankscope.core.workspace import CONSTANT, Workspace
+from rankscope.scale.ledger import Rebuild
 
 #: A new column shorter than GUARD times the size of what it was computed from has lost
 #: more than ~6 of its 16 digits to cancellation (rounding is relative to the inputs,

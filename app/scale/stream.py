@@ -14,15 +14,15 @@ from pathlib import Path
 
 import numpy as np
 
-from app.core.factor import Factorization
-from app.design.design import Design
-from app.design.recipe import Recipe
-from app.scale.stream_finish import Layout, finish, learn
-from app.scale.stream_forms import Frozen
-from app.scale.stream_partial import Partial
-from app.scale.stream_replay import Replay
-from app.scale.stream_source import Retype, Source, open_source
-from app.tables.errors import InputError
+from rankscope.core.factor import Factorization
+from rankscope.design.design import Design
+from rankscope.design.recipe import Recipe
+from rankscope.scale.stream_finish import Layout, finish, learn
+from rankscope.scale.stream_forms import Frozen
+from rankscope.scale.stream_partial import Partial
+from rankscope.scale.stream_replay import Replay
+from rankscope.scale.stream_source import Retype, Source, open_source
+from rankscope.tables.errors import InputError
 
 #: Rows per block: small enough for bounded memory, large enough that Python's per-block
 #: work is a small share of the time.

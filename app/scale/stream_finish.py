@@ -9,17 +9,17 @@ from dataclasses import dataclass, field, replace
 
 import numpy as np
 
-from app.core.factor import Factorization
-from app.core.reduce import unshift, upper_sign_fixed
-from app.core.workspace import CONSTANT, Workspace
-from app.design.assemble import coded_levels
-from app.design.design import INTERCEPT
-from app.design.names import level_order, number_text, quoted, suggestion
-from app.design.steps import ALL_LEVELS
-from app.design.working import PREDICTOR, RESPONSE
-from app.scale.stream_forms import DEFERRED, Entry, Form, Frozen, Key, Tracker
-from app.scale.stream_partial import Partial
-from app.tables.errors import InputError
+from rankscope.core.factor import Factorization
+from rankscope.core.reduce import unshift, upper_sign_fixed
+from rankscope.core.workspace import CONSTANT, Workspace
+from rankscope.design.assemble import coded_levels
+from rankscope.design.design import INTERCEPT
+from rankscope.design.names import level_order, number_text, quoted, suggestion
+from rankscope.design.steps import ALL_LEVELS
+from rankscope.design.working import PREDICTOR, RESPONSE
+from rankscope.scale.stream_forms import DEFERRED, Entry, Form, Frozen, Key, Tracker
+from rankscope.scale.stream_partial import Partial
+from rankscope.tables.errors import InputError
 
 KEPT = "on the rows kept after deleting rows with missing values, "
 #: A centered length below this share of the column's length is rounding: no spread.

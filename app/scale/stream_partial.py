@@ -10,8 +10,8 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from app.core.reduce import merge, shifts_of
-from app.scale.stream_forms import Key, Shape, Tracker
+from rankscope.core.reduce import merge, shifts_of
+from rankscope.scale.stream_forms import Key, Shape, Tracker
 
 
 def _aligned(R: np.ndarray, bases: list[Key], union: list[Key]) -> np.ndarray:

@@ -1,4 +1,4 @@
-"""One block of rows through the recipe: row-wise steps run as app.design runs them, statistic
+"""One block of rows through the recipe: row-wise steps run as rankscope.design runs them, statistic
 steps are held back as forms. Never computes a mean, spread, length or component on a block.
 """
 
@@ -10,15 +10,15 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from app.design.apply_columns import apply_single, check_finite, place
-from app.design.apply_groups import apply_combine, apply_product
-from app.design.apply_kind import apply_kind
-from app.design.apply_roles import apply_indicators
-from app.design.names import quoted
-from app.design.replay import APPLY
-from app.design.steps import ALL_LEVELS, output_name
-from app.design.working import PREDICTOR, RESPONSE, Col, WorkingColumns, derived
-from app.scale.stream_forms import (
+from rankscope.design.apply_columns import apply_single, check_finite, place
+from rankscope.design.apply_groups import apply_combine, apply_product
+from rankscope.design.apply_kind import apply_kind
+from rankscope.design.apply_roles import apply_indicators
+from rankscope.design.names import quoted
+from rankscope.design.replay import APPLY
+from rankscope.design.steps import ALL_LEVELS, output_name
+from rankscope.design.working import PREDICTOR, RESPONSE, Col, WorkingColumns, derived
+from rankscope.scale.stream_forms import (
     DEFERRED,
     REAL,
     STAT_OPS,
@@ -32,9 +32,9 @@ from app.scale.stream_forms import (
     StatStep,
     Tracker,
 )
-from app.scale.stream_partial import Partial
-from app.tables.errors import InputError
-from app.tables.table import Table
+from rankscope.scale.stream_partial import Partial
+from rankscope.tables.errors import InputError
+from rankscope.tables.table import Table
 
 ROLE_STEPS = ("response", "intercept", "drop", "restore", "missing")
 ROW_SINGLE = ("log", "power")

@@ -20,14 +20,14 @@ import pyarrow.csv as pacsv
 import pyarrow.parquet as pq
 import pyarrow.types as pat
 
-from app.tables import sniff
-from app.tables.build import build
-from app.tables.errors import InputError
-from app.tables.parquet import unreadable
-from app.tables.raw import Raw
-from app.tables.read import read_bytes
-from app.tables.table import Table
-from app.tables.text import MISSING_MARKERS
+from rankscope.tables import sniff
+from rankscope.tables.build import build
+from rankscope.tables.errors import InputError
+from rankscope.tables.parquet import unreadable
+from rankscope.tables.raw import Raw
+from rankscope.tables.read import read_bytes
+from rankscope.tables.table import Table
+from rankscope.tables.text import MISSING_MARKERS
 
 #: Bytes of a text file read to decide delimiter, decimal mark and column kinds.
 SAMPLE_BYTES = 1 << 20
@@ -314,7 +314,7 @@ def _parquet_source(p: Path, where: str, size: int, kinds) -> Source:
     batch = next(pf.iter_batches(batch_size=SAMPLE_ROWS))
     table = parquet_table(batch, 0, where, None)
     if kinds:
-        from app.tables.kinds import with_kinds
+        from rankscope.tables.kinds import with_kinds
 
         table = with_kinds(table, kinds)
     notes = [n for n in table.notes if not SAMPLE_FACTS.search(n)]

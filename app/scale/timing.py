@@ -48,7 +48,7 @@ def regression_loop(X: np.ndarray, columns: list[int]) -> tuple[list[float], flo
 def peak_memory(n: int, p: int, seed: int = 0) -> tuple[int, int]:
     """(matrix bytes, peak traced bytes) of one diagnosis, in a fresh Python process."""
     done = subprocess.run(
-        [sys.executable, "-m", "app.scale.memory", str(n), str(p), str(seed)],
+        [sys.executable, "-m", "rankscope.scale.memory", str(n), str(p), str(seed)],
         capture_output=True, text=True, check=True,
     )
     got = json.loads(done.stdout.strip().splitlines()[-1])

@@ -3,9 +3,9 @@
 Persistence only; analysis and web pages live elsewhere and call in here.
 """
 
-from app.store.check import Check, replay_check
-from app.store.history import EDIT_KINDS, KINDS, MOVE_KINDS, Change, Folded, fold
-from app.store.records import (
+from rankscope.store.check import Check, replay_check
+from rankscope.store.history import EDIT_KINDS, KINDS, MOVE_KINDS, Change, Folded, fold
+from rankscope.store.records import (
     Applied,
     Conflict,
     Created,
@@ -15,7 +15,7 @@ from app.store.records import (
     SessionNotFound,
     SessionState,
 )
-from app.store.store import Store, default_root
+from rankscope.store.store import Store, default_root
 
 __all__ = [
     "Applied", "Change", "Check", "Conflict", "Created", "EDIT_KINDS", "Entry", "Folded",

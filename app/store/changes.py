@@ -12,11 +12,11 @@ from collections.abc import Callable
 from dataclasses import dataclass
 from typing import Any
 
-from app.store.check import Check
-from app.store.history import MOVE_KINDS, Change, fingerprint, fold, move_payload
-from app.store.records import Applied, Conflict, Entry, SessionNotFound
-from app.tables.errors import InputError
-from app.tables.table import Table
+from rankscope.store.check import Check
+from rankscope.store.history import MOVE_KINDS, Change, fingerprint, fold, move_payload
+from rankscope.store.records import Applied, Conflict, Entry, SessionNotFound
+from rankscope.tables.errors import InputError
+from rankscope.tables.table import Table
 
 
 @dataclass(frozen=True)

@@ -7,11 +7,11 @@ from __future__ import annotations
 
 from typing import Protocol
 
-from app.design.names import quoted
-from app.design.recipe import Recipe, build_design
-from app.store.history import Change, Folded
-from app.tables.errors import InputError
-from app.tables.table import Table
+from rankscope.design.names import quoted
+from rankscope.design.recipe import Recipe, build_design
+from rankscope.store.history import Change, Folded
+from rankscope.tables.errors import InputError
+from rankscope.tables.table import Table
 
 
 class Check(Protocol):

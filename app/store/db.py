@@ -10,7 +10,7 @@ from collections.abc import Iterator
 from contextlib import contextmanager
 from pathlib import Path
 
-from app.tables.errors import InputError
+from rankscope.tables.errors import InputError
 
 SCHEMA_VERSION = 1
 #: How long a writer waits for another writer's transaction before giving up (seconds).

@@ -16,8 +16,8 @@ import pandas as pd
 import pyarrow as pa
 import pyarrow.parquet as pq
 
-from app.tables.errors import InputError
-from app.tables.table import Table
+from rankscope.tables.errors import InputError
+from rankscope.tables.table import Table
 
 SUFFIX = ".parquet"
 #: Names of files on their way in (written, not yet renamed) or out (deleted, not yet gone).

@@ -12,10 +12,10 @@ import secrets
 from dataclasses import dataclass, field
 from typing import Any
 
-from app.design.recipe import Recipe
-from app.design.steps import validate_step
-from app.store.records import Entry
-from app.tables.errors import InputError
+from rankscope.design.recipe import Recipe
+from rankscope.design.steps import validate_step
+from rankscope.store.records import Entry
+from rankscope.tables.errors import InputError
 
 #: Changes that edit the state; keep and ridge ride in the history so undo walks them too.
 EDIT_KINDS = ("step", "keep", "ridge")

@@ -10,10 +10,10 @@ import sqlite3
 import time
 from typing import Any
 
-from app.store.changes import current_version
-from app.store.history import canonical
-from app.store.records import Pin, SessionNotFound
-from app.tables.errors import InputError
+from rankscope.store.changes import current_version
+from rankscope.store.history import canonical
+from rankscope.store.records import Pin, SessionNotFound
+from rankscope.tables.errors import InputError
 
 MAX_PIN_NAME = 80
 MAX_SETTINGS = 64_000

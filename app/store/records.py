@@ -8,8 +8,8 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 from typing import Any
 
-from app.design.recipe import Recipe
-from app.tables.table import Table
+from rankscope.design.recipe import Recipe
+from rankscope.tables.table import Table
 
 
 class SessionNotFound(KeyError):

@@ -14,11 +14,11 @@ from collections import OrderedDict
 from pathlib import Path, PurePath
 from typing import Any
 
-from app.store import changes, db, files, pins, tokens
-from app.store.check import Check, replay_check
-from app.store.history import Change, checked, fold
-from app.store.pins import clean_text
-from app.store.records import (
+from rankscope.store import changes, db, files, pins, tokens
+from rankscope.store.check import Check, replay_check
+from rankscope.store.history import Change, checked, fold
+from rankscope.store.pins import clean_text
+from rankscope.store.records import (
     Applied,
     Conflict,
     Created,
@@ -27,9 +27,9 @@ from app.store.records import (
     SessionNotFound,
     SessionState,
 )
-from app.tables.errors import InputError
-from app.tables.read import read_bytes
-from app.tables.table import Table
+from rankscope.tables.errors import InputError
+from rankscope.tables.read import read_bytes
+from rankscope.tables.table import Table
 
 #: The environment variable that moves the data folder (tests, several installs).
 ROOT_ENV = "RANKSCOPE_HOME"

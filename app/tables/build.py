@@ -10,11 +10,11 @@ from collections import Counter
 import numpy as np
 import pandas as pd
 
-from app.tables.errors import InputError
-from app.tables.infer import infer_column
-from app.tables.kinds import check_overrides, number_text
-from app.tables.raw import Raw, short
-from app.tables.table import Table
+from rankscope.tables.errors import InputError
+from rankscope.tables.infer import infer_column
+from rankscope.tables.kinds import check_overrides, number_text
+from rankscope.tables.raw import Raw, short
+from rankscope.tables.table import Table
 
 
 def one_column(where: str, name: str) -> InputError:

@@ -19,12 +19,12 @@ import pyarrow.compute as pc
 import pyarrow.csv as pacsv
 import pyarrow.types as pat
 
-from app.tables import sniff
-from app.tables.build import one_column
-from app.tables.errors import InputError
-from app.tables.limits import check_columns
-from app.tables.raw import Raw
-from app.tables.text import MISSING_MARKERS
+from rankscope.tables import sniff
+from rankscope.tables.build import one_column
+from rankscope.tables.errors import InputError
+from rankscope.tables.limits import check_columns
+from rankscope.tables.raw import Raw
+from rankscope.tables.text import MISSING_MARKERS
 
 csv.field_size_limit(max(csv.field_size_limit(), 1 << 26))
 NON_SPACE = re.compile(rb"\S")

@@ -17,9 +17,9 @@ import openpyxl
 import pandas as pd
 import pyarrow as pa
 
-from app.tables.errors import InputError
-from app.tables.limits import check_columns, check_rows, check_unpacked
-from app.tables.raw import Raw
+from rankscope.tables.errors import InputError
+from rankscope.tables.limits import check_columns, check_rows, check_unpacked
+from rankscope.tables.raw import Raw
 
 
 def read_excel(data: bytes, where: str, sheet: str | int | None, max_bytes: int,

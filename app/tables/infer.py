@@ -21,10 +21,10 @@ import pyarrow as pa
 import pyarrow.compute as pc
 import pyarrow.types as pat
 
-from app.tables.errors import InputError
-from app.tables.kinds import cells_error, convert, describe, plural
-from app.tables.raw import Raw, at, short
-from app.tables.text import Offending, TextColumn
+from rankscope.tables.errors import InputError
+from rankscope.tables.kinds import cells_error, convert, describe, plural
+from rankscope.tables.raw import Raw, at, short
+from rankscope.tables.text import Offending, TextColumn
 
 MOSTLY = 0.8
 FIX_TEXT = (

@@ -14,10 +14,10 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
-from app.tables.errors import InputError
-from app.tables.raw import at, row_label, short
-from app.tables.table import KINDS, Table
-from app.tables.text import Offending, TextColumn
+from rankscope.tables.errors import InputError
+from rankscope.tables.raw import at, row_label, short
+from rankscope.tables.table import KINDS, Table
+from rankscope.tables.text import Offending, TextColumn
 
 
 def with_kinds(table: Table, overrides: dict[str, str]) -> Table:

@@ -8,8 +8,8 @@ from __future__ import annotations
 import pyarrow as pa
 import pyarrow.compute as pc
 
-from app.tables.errors import InputError
-from app.tables.raw import Raw, row_label, short
+from rankscope.tables.errors import InputError
+from rankscope.tables.raw import Raw, row_label, short
 
 #: A compressed file that unpacks to more than this many times its size, and to more than
 #: BOMB_FLOOR bytes, is refused: real tables compress far less (text about 3-20x, an .xlsx

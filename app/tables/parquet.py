@@ -11,9 +11,9 @@ import pandas as pd
 import pyarrow as pa
 import pyarrow.parquet as pq
 
-from app.tables.errors import InputError
-from app.tables.limits import check_columns, check_rows
-from app.tables.raw import Raw
+from rankscope.tables.errors import InputError
+from rankscope.tables.limits import check_columns, check_rows
+from rankscope.tables.raw import Raw
 
 PANDAS_INDEX = re.compile(r"^__index_level_\d+__$")
 

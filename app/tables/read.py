@@ -12,15 +12,15 @@ import os
 import zlib
 from pathlib import Path
 
-from app.tables import sniff
-from app.tables.build import build
-from app.tables.delimited import read_text
-from app.tables.errors import InputError
-from app.tables.excel import read_excel
-from app.tables.kinds import with_kinds
-from app.tables.limits import check_cells, check_columns, check_rows, check_unpacked
-from app.tables.parquet import read_parquet
-from app.tables.table import Table
+from rankscope.tables import sniff
+from rankscope.tables.build import build
+from rankscope.tables.delimited import read_text
+from rankscope.tables.errors import InputError
+from rankscope.tables.excel import read_excel
+from rankscope.tables.kinds import with_kinds
+from rankscope.tables.limits import check_cells, check_columns, check_rows, check_unpacked
+from rankscope.tables.parquet import read_parquet
+from rankscope.tables.table import Table
 
 MAX_BYTES = 2_000_000_000
 UNSUPPORTED_EXTS = {

@@ -11,7 +11,7 @@ import re
 import zipfile
 from pathlib import PurePath
 
-from app.tables.errors import InputError
+from rankscope.tables.errors import InputError
 
 SAMPLE_BYTES = 64 * 1024
 DELIMITERS = (",", "\t", ";", "|")

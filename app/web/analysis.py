@@ -9,8 +9,8 @@ import json
 from dataclasses import dataclass
 from typing import Any
 
-from app.design.design import INTERCEPT
-from app.design.recipe import Recipe
+from rankscope.design.design import INTERCEPT
+from rankscope.design.recipe import Recipe
 
 #: Categorical columns with more levels than this get no level chooser (a free-text
 #: field instead): a menu of thousands of levels helps nobody.

@@ -12,26 +12,26 @@ import time
 from dataclasses import replace
 from typing import Any
 
-from app.core import diagnose
-from app.core.diagnosis import diagnose_factor
-from app.design.apply_roles import levels_of
-from app.design.design import Design
-from app.design.names import quoted
-from app.design.recipe import Recipe
-from app.design.replay import trace_design
-from app.design.steps import describe_step, finite_number, short_number
-from app.design.working import DROPPED, PREDICTOR, RESPONSE
-from app.scale.reduced import Reduced
-from app.scale.reduced_steps import refused
-from app.scale.sources import NO_ROWS_NOTE, Source
-from app.store.records import Applied, Conflict, Created
-from app.tables.errors import InputError
-from app.tables.table import Table
-from app.web import refit
-from app.web.analysis import LEVEL_MENU_LIMIT, Analysis, Settings, WorkingColumn
-from app.web.budget import Budget
-from app.web.recent import Recent, cells
-from app.web.state import Change, PinnedFit, Session, SessionStore
+from rankscope.core import diagnose
+from rankscope.core.diagnosis import diagnose_factor
+from rankscope.design.apply_roles import levels_of
+from rankscope.design.design import Design
+from rankscope.design.names import quoted
+from rankscope.design.recipe import Recipe
+from rankscope.design.replay import trace_design
+from rankscope.design.steps import describe_step, finite_number, short_number
+from rankscope.design.working import DROPPED, PREDICTOR, RESPONSE
+from rankscope.scale.reduced import Reduced
+from rankscope.scale.reduced_steps import refused
+from rankscope.scale.sources import NO_ROWS_NOTE, Source
+from rankscope.store.records import Applied, Conflict, Created
+from rankscope.tables.errors import InputError
+from rankscope.tables.table import Table
+from rankscope.web import refit
+from rankscope.web.analysis import LEVEL_MENU_LIMIT, Analysis, Settings, WorkingColumn
+from rankscope.web.budget import Budget
+from rankscope.web.recent import Recent, cells
+from rankscope.web.state import Change, PinnedFit, Session, SessionStore
 
 __all__ = ["LEVEL_MENU_LIMIT", "Analysis", "Settings", "UnknownSession", "WorkingColumn",
            "Analyst", "analyse", "settings_of"]
@@ -166,7 +166,7 @@ class Analyst:
     carry the version they were made on; the store decides what a late one means.
     Analyses run within `budget` (time and number at once); one past its time is cached
     when it ends, so the retry answers at once. Recent analyses and edit engines are kept
-    by size (app.web.recent): at least cache_size of each, and more while they are small, so
+    by size (rankscope.web.recent): at least cache_size of each, and more while they are small, so
     every open session's next change is one edit away.
     """
 

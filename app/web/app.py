@@ -17,20 +17,20 @@ from fastapi.responses import JSONResponse, Response
 from fastapi.staticfiles import StaticFiles
 from starlette.exceptions import HTTPException as StarletteHTTPException
 
-from app.store import SessionNotFound, Store
-from app.tables.errors import InputError
-from app.web.access.bodies import safe_text
-from app.web.access.bodysize import BodyLimit
-from app.web.access.gate import AccessGate
-from app.web.access.guard import DEFAULT_HOSTS, Guard
-from app.web.access.lanes import RequestThreads
-from app.web.access.limits import Limits
-from app.web.analyst import Analyst, UnknownSession
-from app.web.budget import AnalysisTooSlow, Budget
-from app.web.live.feed import Hub
-from app.web.rendering.render import STATIC, render
-from app.web.routes import api, assets, downloads, formulas, insight, pages, sessions
-from app.web.stored import StoredSessions, session_check
+from rankscope.store import SessionNotFound, Store
+from rankscope.tables.errors import InputError
+from rankscope.web.access.bodies import safe_text
+from rankscope.web.access.bodysize import BodyLimit
+from rankscope.web.access.gate import AccessGate
+from rankscope.web.access.guard import DEFAULT_HOSTS, Guard
+from rankscope.web.access.lanes import RequestThreads
+from rankscope.web.access.limits import Limits
+from rankscope.web.analyst import Analyst, UnknownSession
+from rankscope.web.budget import AnalysisTooSlow, Budget
+from rankscope.web.live.feed import Hub
+from rankscope.web.rendering.render import STATIC, render
+from rankscope.web.routes import api, assets, downloads, formulas, insight, pages, sessions
+from rankscope.web.stored import StoredSessions, session_check
 
 GONE = ("There is no session at this address: it may have been deleted, or the link may be "
         "incomplete.")

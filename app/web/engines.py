@@ -9,15 +9,15 @@ from collections.abc import Callable
 
 from fastapi import FastAPI
 
-from app.scale.reduced import Reduced, reduce_on_dask
-from app.scale.reduction import Reduction
-from app.scale.stream import BLOCK_ROWS
-from app.store import Store, default_root
-from app.store.records import Created
-from app.web.app import create_app
-from app.web.routes import reducing
-from app.web.state import Session
-from app.web.stored import session_check
+from rankscope.scale.reduced import Reduced, reduce_on_dask
+from rankscope.scale.reduction import Reduction
+from rankscope.scale.stream import BLOCK_ROWS
+from rankscope.store import Store, default_root
+from rankscope.store.records import Created
+from rankscope.web.app import create_app
+from rankscope.web.routes import reducing
+from rankscope.web.state import Session
+from rankscope.web.stored import session_check
 
 #: Called from the reduction's thread once its session exists.
 OnDone = Callable[[Session, Created], None]

@@ -8,12 +8,12 @@ from __future__ import annotations
 
 from typing import Any
 
-from app.core.diagnosis import diagnose_factor
-from app.core.factor import factorize
-from app.design.replay import trace_design
-from app.report.remedies import remedies_of
-from app.tables.table import Table
-from app.web.analysis import Settings
+from rankscope.core.diagnosis import diagnose_factor
+from rankscope.core.factor import factorize
+from rankscope.design.replay import trace_design
+from rankscope.report.remedies import remedies_of
+from rankscope.tables.table import Table
+from rankscope.web.analysis import Settings
 
 #: Values shown per listed row: the columns of the measure, at most this many.
 ROW_VALUES = 8

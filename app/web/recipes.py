@@ -1,6 +1,6 @@
 """Importing a recipe file into a session: its steps become step changes on top of the history.
 
-Reads the file through app.report.export and saves through the store; renders nothing.
+Reads the file through rankscope.report.export and saves through the store; renders nothing.
 """
 
 from __future__ import annotations
@@ -8,12 +8,12 @@ from __future__ import annotations
 import secrets
 from dataclasses import dataclass
 
-from app.report.export import import_recipe
-from app.store import Conflict
-from app.tables.errors import InputError
-from app.web.access.bodies import sound_text
-from app.web.analyst import Analyst
-from app.web.state import Change
+from rankscope.report.export import import_recipe
+from rankscope.store import Conflict
+from rankscope.tables.errors import InputError
+from rankscope.web.access.bodies import sound_text
+from rankscope.web.analyst import Analyst
+from rankscope.web.state import Change
 
 #: Room left in a change id (at most 100 characters) for ":<step number>".
 MAX_IMPORT_ID = 80

@@ -9,17 +9,17 @@ import time
 from dataclasses import dataclass
 from typing import Any
 
-from app.core import diagnose
-from app.core.correlation import spearman
-from app.core.diagnosis import spearman_rows
-from app.design.apply_roles import levels_of
-from app.design.design import Design
-from app.design.recipe import build_design
-from app.design.replay import trace_design
-from app.design.working import DROPPED, PREDICTOR, RESPONSE
-from app.scale.edits import EditEngine
-from app.tables.table import Table
-from app.web.analysis import LEVEL_MENU_LIMIT, Analysis, Settings, WorkingColumn
+from rankscope.core import diagnose
+from rankscope.core.correlation import spearman
+from rankscope.core.diagnosis import spearman_rows
+from rankscope.design.apply_roles import levels_of
+from rankscope.design.design import Design
+from rankscope.design.recipe import build_design
+from rankscope.design.replay import trace_design
+from rankscope.design.working import DROPPED, PREDICTOR, RESPONSE
+from rankscope.scale.edits import EditEngine
+from rankscope.tables.table import Table
+from rankscope.web.analysis import LEVEL_MENU_LIMIT, Analysis, Settings, WorkingColumn
 
 #: Ids of a pair of held columns -> their Spearman correlation on the rows used.
 Pairs = dict[tuple[str, str], float]
@@ -59,7 +59,7 @@ def _levels(table: Table, settings: Settings, engine: EditEngine) -> dict[int, l
     out = {e.key: _menu(list(e.levels)) for e in cats if e.levels is not None}
     if len(out) < len(cats):
         cols = trace_design(table, list(settings.recipe)).working.cols
-        for e in cats:  # ledger keys are positions on the analyst of a build (app.scale.start)
+        for e in cats:  # ledger keys: positions in a build (rankscope.scale.start)
             out.setdefault(e.key, _menu(levels_of(cols[e.key])))
     return out
 

@@ -15,15 +15,15 @@ from pathlib import Path
 
 import uvicorn
 
-from app.store import Store
-from app.store.records import Created
-from app.tables.read import read_table
-from app.web.access.guard import hosts_for
-from app.web.access.limits import Limits
-from app.web.access.links import link
-from app.web.app import create_app
-from app.web.engines import open_store
-from app.web.state import Session
+from rankscope.store import Store
+from rankscope.store.records import Created
+from rankscope.tables.read import read_table
+from rankscope.web.access.guard import hosts_for
+from rankscope.web.access.limits import Limits
+from rankscope.web.access.links import link
+from rankscope.web.app import create_app
+from rankscope.web.engines import open_store
+from rankscope.web.state import Session
 
 #: Seconds a stopping server waits for open requests; live feeds never end on their own
 #: quickly, so without a bound Ctrl+C would wait for every open page.
@@ -106,13 +106,13 @@ def run(path: str | os.PathLike | None, host: str = "127.0.0.1", port: int = 876
     public_url = base if share else None
     made = None
     if engine == "dask":
-        from app.web.engines import create_dask_app  # dask loads only for this engine
+        from rankscope.web.engines import create_dask_app  # dask loads only for this engine
 
         app, _, made = create_dask_app(path or "", response, scheduler, data_dir,
                                        share=share, public_url=public_url)
         store: Store = app.state.sessions.db
     elif engine == "stream":
-        from app.web.engines import create_stream_app
+        from rankscope.web.engines import create_stream_app
 
         app = create_stream_app(path or "", response, data_dir, share=share,
                                 public_url=public_url, on_done=_announce(base, share))

@@ -1,4 +1,4 @@
-"""A real `rankscope serve` (python -m app.cli) in a child process on a free loopback port,
+"""A real `rankscope serve` (python -m rankscope.cli) in a child process on a free loopback port,
 read until it listens: for the load driver and the live-server tests.
 
 Starts, kills and stops the process only; what is sent to it is up to the caller.
@@ -32,13 +32,13 @@ class LiveServer:
     """One `rankscope serve` process on data_dir; its printed lines are collected as they
     come. A child process, so that a client in this process never shares its GIL.
 
-    launcher: the python arguments that run the command line (default: -m app.cli).
+    launcher: the python arguments that run the command line (default: -m rankscope.cli).
     held: the launcher waits for a line on its stdin before it serves (see release), so a
     restart can be made ready, imports and all, before the server it replaces is killed.
     """
 
     def __init__(self, data_dir: Path, *args: str,
-                 launcher: Sequence[str] = ("-m", "app.cli"), held: bool = False) -> None:
+                 launcher: Sequence[str] = ("-m", "rankscope.cli"), held: bool = False) -> None:
         self.port = free_port()
         self.url = f"http://127.0.0.1:{self.port}"
         cmd = [sys.executable, *launcher, "serve", "--no-browser", "--host", "127.0.0.1",

@@ -9,9 +9,9 @@ import time
 from dataclasses import dataclass, field, replace
 from typing import Any, Protocol
 
-from app.scale.sources import RowsSource, Source
-from app.store.records import Applied, Conflict, Created
-from app.tables.table import Table
+from rankscope.scale.sources import RowsSource, Source
+from rankscope.store.records import Applied, Conflict, Created
+from rankscope.tables.table import Table
 
 #: What a history entry can change. "step" carries a recipe step; "keep" and "ridge"
 #: carry diagnosis settings (basis priority, ridge penalty) so undo walks them too.

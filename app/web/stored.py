@@ -1,6 +1,6 @@
 """The web app's sessions kept in the SQLite session store: loaded as Sessions, changed by version.
 
-Translates between app.store records and the web's records; judges and analyses nothing.
+Translates between rankscope.store records and the web's records; judges and analyses nothing.
 """
 
 from __future__ import annotations
@@ -9,10 +9,10 @@ import threading
 from pathlib import PurePath
 from typing import Any
 
-from app.scale.reduced import Reduced, engine_of
-from app.scale.reduced_steps import refuse_without_rows
-from app.scale.sources import ReducedSource, Source, UnkeptSource
-from app.store import (
+from rankscope.scale.reduced import Reduced, engine_of
+from rankscope.scale.reduced_steps import refuse_without_rows
+from rankscope.scale.sources import ReducedSource, Source, UnkeptSource
+from rankscope.store import (
     Applied,
     Conflict,
     Created,
@@ -22,19 +22,19 @@ from app.store import (
     Store,
     replay_check,
 )
-from app.store import Change as StoredChange
-from app.store.history import Folded
-from app.store.store import MAX_TITLE
-from app.tables.table import Table
-from app.web.access import links
-from app.web.state import Change, PinnedFit, Session
+from rankscope.store import Change as StoredChange
+from rankscope.store.history import Folded
+from rankscope.store.store import MAX_TITLE
+from rankscope.tables.table import Table
+from rankscope.web.access import links
+from rankscope.web.state import Change, PinnedFit, Session
 
 #: The settings key that holds the session's sealed links (see access/links.py).
 SEALED = "sealed_links"
 
 
 def session_check(table: Table, before: Folded, change: StoredChange) -> None:
-    """The store's check (see app.store.check) for every source: the recipe's replay for a
+    """The store's check (see rankscope.store.check) for every source: the recipe's replay for a
     session on rows; for a reduced one, only steps its factor can take (the analyst checks
     the rest on the factor before anything is saved)."""
     if engine_of(table) is None:
@@ -57,7 +57,7 @@ def as_session(state: SessionState, source: Source | None = None) -> Session:
 
 
 class StoredSessions:
-    """The SessionStore of the web app on top of app.store.Store (shared by threads)."""
+    """The SessionStore of the web app on top of rankscope.store.Store (shared by threads)."""
 
     def __init__(self, db: Store) -> None:
         self.db = db

@@ -37,9 +37,9 @@ def test_the_example_message_is_rankscopes():
 
 
 def test_every_public_function_is_documented():
-    import app
+    import rankscope
 
     for name in ("inspect", "serve", "vif_frame", "gvif_frame", "index_frame",
                  "dependencies_frame", "fit_frame", "to_json"):
         assert f"{name}" in DOC, name
-    assert set(app.__all__) >= {"inspect", "serve"}
+    assert set(rankscope.__all__) >= {"inspect", "serve"}

@@ -7,9 +7,9 @@ import numpy as np
 import pandas as pd
 import pytest
 
-import app
-from app.design.design import INTERCEPT
-from app.tables.errors import InputError
+import rankscope
+from rankscope.design.design import INTERCEPT
+from rankscope.tables.errors import InputError
 from tests.api.data import planted, write_csv
 from tests.cli.runner import run
 
@@ -30,7 +30,7 @@ def _renamed(columns) -> list[str]:
 def test_formula_design_is_patsys_model_matrix(formula):
     patsy = pytest.importorskip("patsy")
     frame = planted(missing=True)
-    design = app.inspect(frame, formula=formula).design
+    design = rankscope.inspect(frame, formula=formula).design
     # Outside reference: patsy.dmatrices (NA rows dropped, treatment coding on sorted levels).
     y_ref, X_ref = patsy.dmatrices(formula, frame, return_type="dataframe")
     # patsy orders columns by the kind of term (categorical parts first); the names match.
@@ -54,7 +54,7 @@ def test_formula_design_is_formulaics_model_matrix(formula):
     from formulaic import model_matrix
 
     frame = planted(missing=True)
-    design = app.inspect(frame, formula=formula).design
+    design = rankscope.inspect(frame, formula=formula).design
     if formula in STATEFUL:
         # poly, center and scale learn from the rows: rankscope deletes rows with a missing
         # value first (as its recipe does), formulaic after; so the reference gets the rows
@@ -72,7 +72,7 @@ def test_formula_design_is_formulaics_model_matrix(formula):
 
 def test_poly_spans_the_powers_and_groups_its_columns():
     frame = planted()
-    got = app.inspect(frame, formula="y ~ poly(u, 3) + v")
+    got = rankscope.inspect(frame, formula="y ~ poly(u, 3) + v")
     cols = [c for c in got.design.columns if c.startswith("poly(u, 3)")]
     assert got.design.groups["poly(u, 3)"] == cols and len(cols) == 3
     P = got.design.X[:, [got.design.columns.index(c) for c in cols]]
@@ -85,7 +85,7 @@ def test_poly_spans_the_powers_and_groups_its_columns():
 
 
 def test_exact_dependency_is_named_in_the_formulas_names():
-    got = app.inspect(planted(), formula="y ~ u + v + w + C(g)")
+    got = rankscope.inspect(planted(), formula="y ~ u + v + w + C(g)")
     assert [r["equation"] for r in got.dependencies] == ["w = u − 2·v"]
     assert got.gvif["C(g)"]["columns"] == ["C(g)[T.north]", "C(g)[T.south]"]
 
@@ -103,7 +103,7 @@ def test_exact_dependency_is_named_in_the_formulas_names():
 ])
 def test_bad_formulas_get_a_clear_message(formula, expected, tmp_path):
     with pytest.raises(InputError) as caught:
-        app.inspect(planted(), formula=formula)
+        rankscope.inspect(planted(), formula=formula)
     for part in expected:
         assert part in caught.value.message
     # The command line says the same in one line, exit code 2, no traceback.
@@ -117,18 +117,18 @@ def test_transform_that_breaks_a_row_is_named_by_row():
     frame = planted()
     frame.loc[4, "z"] = -50.0
     with pytest.raises(InputError, match=r"record 5: the formula's column \"np.log\(z\)\""):
-        app.inspect(frame, formula="y ~ np.log(z)")
+        rankscope.inspect(frame, formula="y ~ np.log(z)")
 
 
 def test_response_given_twice_must_agree():
     with pytest.raises(InputError, match="names the response"):
-        app.inspect(planted(), "u", formula="y ~ v")
-    assert app.inspect(planted(), "y", formula="y ~ v").response == "y"
+        rankscope.inspect(planted(), "u", formula="y ~ v")
+    assert rankscope.inspect(planted(), "y", formula="y ~ v").response == "y"
 
 
 def test_missing_rows_are_counted_as_the_recipe_counts_them():
     frame = planted(missing=True)
-    got = app.inspect(frame, formula="y ~ u + v").design
+    got = rankscope.inspect(frame, formula="y ~ u + v").design
     assert got.dropped_by == {"v": 9, "y": int((frame["y"].isna() & frame["v"].notna()).sum())}
     assert pd.isna(frame["v"]).sum() == 9
 
@@ -136,8 +136,8 @@ def test_missing_rows_are_counted_as_the_recipe_counts_them():
 def test_dot_stands_for_every_other_column():
     frame = planted()
     frame["day"] = pd.Timestamp("2024-01-01") + pd.to_timedelta(range(len(frame)), "D")
-    dot = app.inspect(frame, formula="y ~ . - w")
-    named = app.inspect(frame.drop(columns="day"), formula="y ~ u + v + z + g")
+    dot = rankscope.inspect(frame, formula="y ~ . - w")
+    named = rankscope.inspect(frame.drop(columns="day"), formula="y ~ u + v + z + g")
     # Dates are not numbers, so `.` leaves them out, as the recipe does.
     assert dot.columns == named.columns
     np.testing.assert_array_equal(dot.design.X, named.design.X)

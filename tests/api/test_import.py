@@ -1,4 +1,4 @@
-"""`import app` stays light: the API's names load on first use, and importing the package
+"""`import rankscope` stays light: the API's names load on first use, and importing the package
 loads neither pandas, scipy nor the web stack. Measured in fresh interpreters."""
 
 from __future__ import annotations
@@ -9,11 +9,11 @@ import sys
 
 import pytest
 
-import app
+import rankscope
 
 HEAVY = ("pandas", "scipy", "fastapi", "uvicorn", "pyarrow", "plotly", "formulaic", "numpy",
          "statsmodels")
-#: The budget for `import app` in a fresh interpreter (the issue's 0.3 s), over the bare
+#: The budget for `import rankscope` in a fresh interpreter (the issue's 0.3 s), over the bare
 #: interpreter's own start (which -X importtime does not count).
 BUDGET = 0.3
 
@@ -24,7 +24,7 @@ def _fresh(code: str) -> subprocess.CompletedProcess:
 
 
 def test_import_loads_nothing_heavy():
-    got = _fresh("import sys, json, app; print(json.dumps(sorted(sys.modules)))")
+    got = _fresh("import sys, json, rankscope; print(json.dumps(sorted(sys.modules)))")
     loaded = {m.split(".")[0] for m in json.loads(got.stdout)}
     assert not loaded & set(HEAVY), sorted(loaded & set(HEAVY))
 
@@ -34,18 +34,18 @@ def test_import_time_is_within_budget():
     # (Python docs, "-X importtime"); the line for the package itself is the total.
     totals = []
     for _ in range(3):
-        err = subprocess.run([sys.executable, "-X", "importtime", "-c", "import app"],
+        err = subprocess.run([sys.executable, "-X", "importtime", "-c", "import rankscope"],
                              capture_output=True, text=True, timeout=120, check=True).stderr
-        line = next(ln for ln in err.splitlines() if ln.split("|")[-1].strip() == "app")
+        line = next(ln for ln in err.splitlines() if ln.split("|")[-1].strip() == "rankscope")
         totals.append(int(line.split("|")[1]) / 1e6)
     assert min(totals) < BUDGET, totals
 
 
 def test_public_names_resolve_lazily():
-    assert set(app.__all__) >= {"inspect", "serve", "Inspection", "Recipe", "InputError"}
-    for name in app.__all__:
-        assert getattr(app, name) is not None
-    assert set(app.__all__) <= set(dir(app))
+    assert set(rankscope.__all__) >= {"inspect", "serve", "Inspection", "Recipe", "InputError"}
+    for name in rankscope.__all__:
+        assert getattr(rankscope, name) is not None
+    assert set(rankscope.__all__) <= set(dir(rankscope))
     with pytest.raises(AttributeError):
-        _ = app.no_such_name
-    assert app.inspect.__doc__ and "Parameters\n    ----------" in app.inspect.__doc__
+        _ = rankscope.no_such_name
+    assert rankscope.inspect.__doc__ and "Parameters\n    ----------" in rankscope.inspect.__doc__

@@ -5,7 +5,7 @@ from __future__ import annotations
 
 import pytest
 
-import app
+import rankscope
 from tests.api.data import planted
 
 
@@ -30,7 +30,7 @@ def offline_page(browser):
 
 def test_repr_html_draws_offline(offline_page):
     page, requests, problems = offline_page
-    got = app.inspect(planted(), formula="y ~ u + v + w + z + C(g) + u:g")
+    got = rankscope.inspect(planted(), formula="y ~ u + v + w + z + C(g) + u:g")
     html = got._repr_html_()
     # As a notebook shows it: the output fragment inside the notebook's own page.
     page.set_content(f"<!DOCTYPE html><html><body><h1>notebook</h1>{html}</body></html>",
@@ -48,7 +48,7 @@ def test_repr_html_draws_offline(offline_page):
 
 
 def test_plain_repr_is_a_short_summary():
-    got = app.inspect(planted(), formula="y ~ u + v + w + C(g)")
+    got = rankscope.inspect(planted(), formula="y ~ u + v + w + C(g)")
     text = repr(got)
     assert len(text.splitlines()) <= 8
     assert "rank 5 of 6 (deficient by 1)" in text and "exact: w = u − 2·v" in text

@@ -11,7 +11,7 @@ import json
 
 import pytest
 
-import app
+import rankscope
 from tests.api.data import assert_close, planted, write_csv
 from tests.cli.runner import run
 
@@ -58,8 +58,8 @@ def test_recipe_cli_and_api_agree(csv, tmp_path):
     recipe.write_text(json.dumps({"steps": steps}), encoding="utf-8")
     by_options = _cli(str(csv), "--response", "y", "--drop", "z")
     by_recipe_file = _cli(str(csv), "--recipe", str(recipe))
-    by_api_path = app.inspect(csv, "y", recipe=[{"step": "drop", "column": "z"}]).to_dict()
-    by_api_frame = app.inspect(frame, recipe=steps).to_dict()
+    by_api_path = rankscope.inspect(csv, "y", recipe=[{"step": "drop", "column": "z"}]).to_dict()
+    by_api_frame = rankscope.inspect(frame, recipe=steps).to_dict()
     assert by_options["rank"] == len(by_options["columns"]) - 1  # w = u − 2v, planted
     assert by_options["dependencies"][0]["column"] == "w"
     reference = _without_origin(by_options)
@@ -73,8 +73,8 @@ def test_formula_cli_and_api_agree_with_the_recipe(csv):
     frame = planted(missing=True)
     formula = "y ~ u + v + w + z + g"
     by_cli = _cli(str(csv), "--formula", formula)
-    by_api = app.inspect(frame, formula=formula).to_dict()
-    by_api_path = app.inspect(csv, formula=formula).to_dict()
+    by_api = rankscope.inspect(frame, formula=formula).to_dict()
+    by_api_path = rankscope.inspect(csv, formula=formula).to_dict()
     assert by_cli["columns"][:2] == ["(intercept)", "u"]
     assert "g[T.north]" in by_cli["columns"]
     assert_close(_without_origin(by_api), _without_origin(by_cli))
@@ -86,9 +86,9 @@ def test_formula_cli_and_api_agree_with_the_recipe(csv):
 def test_formula_with_recipe_steps_on_top(csv):
     """The formula starts the design; recipe steps then act on its columns."""
     frame = planted(missing=True)
-    on_top = app.inspect(frame, formula="y ~ u + v + w + z", recipe=[
+    on_top = rankscope.inspect(frame, formula="y ~ u + v + w + z", recipe=[
         {"step": "drop", "column": "w"}]).to_dict()
-    direct = app.inspect(frame, formula="y ~ u + v + z").to_dict()
+    direct = rankscope.inspect(frame, formula="y ~ u + v + z").to_dict()
     on_top_cli = _cli(str(csv), "--formula", "y ~ u + v + w + z", "--drop", "w")
     assert on_top["full_rank"] and on_top["columns"] == direct["columns"]
     assert_close(_without_origin(on_top)["vif"], _without_origin(direct)["vif"])
@@ -99,14 +99,15 @@ def test_formula_with_recipe_steps_on_top(csv):
 def test_other_table_types_agree():
     pa = pytest.importorskip("pyarrow")
     frame = planted()
-    reference = app.inspect(frame, "y").to_dict()
-    arrow = app.inspect(pa.Table.from_pandas(frame), "y").to_dict()
+    reference = rankscope.inspect(frame, "y").to_dict()
+    arrow = rankscope.inspect(pa.Table.from_pandas(frame), "y").to_dict()
     assert_close(_without_origin(arrow), _without_origin(reference))
     numeric = frame.drop(columns="g")
-    as_array = app.inspect(numeric.to_numpy(), "y", names=list(numeric.columns)).to_dict()
-    assert_close(_without_origin(as_array), _without_origin(app.inspect(numeric, "y").to_dict()))
+    as_array = rankscope.inspect(numeric.to_numpy(), "y", names=list(numeric.columns)).to_dict()
+    direct = rankscope.inspect(numeric, "y").to_dict()
+    assert_close(_without_origin(as_array), _without_origin(direct))
     pl = pytest.importorskip("polars")
-    polars = app.inspect(pl.from_pandas(frame), "y").to_dict()
+    polars = rankscope.inspect(pl.from_pandas(frame), "y").to_dict()
     assert_close(_without_origin(polars), _without_origin(reference))
 
 
@@ -117,7 +118,7 @@ def test_document_follows_the_schema():
 
     schema = json.loads((Path(__file__).resolve().parents[2] / "docs" /
                          "diagnosis.schema.json").read_text(encoding="utf-8"))
-    doc = json.loads(app.inspect(planted(), formula="y ~ u + v + w + C(g) + u:g").to_json())
+    doc = json.loads(rankscope.inspect(planted(), formula="y ~ u + v + w + C(g) + u:g").to_json())
     errors = sorted(Draft202012Validator(schema).iter_errors(doc), key=str)
     assert not errors, errors[0]
 
@@ -125,5 +126,5 @@ def test_document_follows_the_schema():
 def test_a_table_with_model_like_column_names_is_a_table():
     frame = planted().rename(columns={"u": "exog", "v": "endog", "z": "model"})
     frame["exog_names"] = 1.0
-    got = app.inspect(frame, "y")
+    got = rankscope.inspect(frame, "y")
     assert "exog" in got.columns and got.source == "DataFrame"

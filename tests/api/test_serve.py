@@ -8,14 +8,14 @@ from urllib.parse import urlsplit
 import httpx
 import pytest
 
-import app
-from app.api import serve as serving
+import rankscope
+from rankscope.api import serve as serving
 from tests.api.data import assert_close, planted
 
 
 @pytest.fixture()
 def served(tmp_path):
-    yield lambda *a, **k: app.serve(*a, data_dir=tmp_path, **k)
+    yield lambda *a, **k: rankscope.serve(*a, data_dir=tmp_path, **k)
     serving.stop()
 
 
@@ -46,12 +46,12 @@ def test_serve_opens_the_same_design_as_a_session(served):
     frame = planted()
     url = served(frame, "y", recipe=[{"step": "drop", "column": "z"}])
     assert url.startswith("http://127.0.0.1:") and "?t=" in url
-    expected = app.inspect(frame, "y", recipe=[{"step": "drop", "column": "z"}])
+    expected = rankscope.inspect(frame, "y", recipe=[{"step": "drop", "column": "z"}])
     _same(_diagnosis(url), expected.to_dict())
     # A second call reuses the running server and makes another session.
     again = served(frame, formula="y ~ u + v + C(g)")
     assert urlsplit(again).netloc == urlsplit(url).netloc and again != url
-    by_formula = app.inspect(frame, formula="y ~ u + v + C(g)")
+    by_formula = rankscope.inspect(frame, formula="y ~ u + v + C(g)")
     _same(_diagnosis(again), by_formula.to_dict())
 
 

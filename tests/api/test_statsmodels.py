@@ -7,8 +7,8 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-import app
-from app.design.design import INTERCEPT
+import rankscope
+from rankscope.design.design import INTERCEPT
 from tests.api.data import planted, write_csv
 
 sm = pytest.importorskip("statsmodels.api")
@@ -48,23 +48,23 @@ def _matches_statsmodels(got, results) -> None:
 def test_formula_results_match_the_csv_path(tmp_path):
     frame = planted(missing=True)
     results = smf.ols(FULL, frame).fit()
-    from_model = app.inspect(results)
-    from_csv = app.inspect(write_csv(frame, tmp_path), formula=FULL)
+    from_model = rankscope.inspect(results)
+    from_csv = rankscope.inspect(write_csv(frame, tmp_path), formula=FULL)
     assert from_model.design.rows_used == results.nobs == from_csv.design.rows_used
     assert from_model.full_rank
     _same_diagnosis(from_model, from_csv)
     _matches_statsmodels(from_model, results)
     # The formula's terms are the GVIF groups: all columns of C(g), of u:g.
     assert from_model.gvif["C(g)"]["df"] == 2 and from_model.gvif["u:g"]["df"] == 2
-    assert app.inspect(results.model).to_dict() == from_model.to_dict()
+    assert rankscope.inspect(results.model).to_dict() == from_model.to_dict()
 
 
 def test_array_results_match_the_csv_path(tmp_path):
     frame = planted().drop(columns="g")
     X = sm.add_constant(frame[["u", "v", "z"]])
     results = sm.OLS(frame["y"], X).fit()
-    from_model = app.inspect(results)
-    from_csv = app.inspect(write_csv(frame, tmp_path), "y", recipe=[
+    from_model = rankscope.inspect(results)
+    from_csv = rankscope.inspect(write_csv(frame, tmp_path), "y", recipe=[
         {"step": "drop", "column": "w"}])
     assert from_model.columns == [INTERCEPT, "u", "v", "z"]
     _same_diagnosis(from_model, from_csv)
@@ -76,13 +76,13 @@ def test_weighted_results_match_statsmodels():
     frame = planted()
     weights = np.random.default_rng(3).uniform(0.5, 2.0, len(frame))
     results = smf.wls("y ~ u + v + C(g)", frame, weights=weights).fit()
-    got = app.inspect(results)
+    got = rankscope.inspect(results)
     assert got.fit["weighted"]
     _matches_statsmodels(got, results)
     # The same weights through the data path, by column name and as an array.
     frame["wt"] = weights
-    by_name = app.inspect(frame, formula="y ~ u + v + C(g)", weights="wt")
-    by_array = app.inspect(frame, formula="y ~ u + v + C(g)", weights=weights)
+    by_name = rankscope.inspect(frame, formula="y ~ u + v + C(g)", weights="wt")
+    by_array = rankscope.inspect(frame, formula="y ~ u + v + C(g)", weights=weights)
     _same_diagnosis(by_name, got)
     _same_diagnosis(by_array, got)
 
@@ -91,7 +91,7 @@ def test_weighted_results_match_statsmodels():
 def test_deficient_model_names_the_dependency_by_its_terms():
     frame = planted()
     results = smf.ols("y ~ u + v + w + C(g)", frame).fit()
-    got = app.inspect(results)
+    got = rankscope.inspect(results)
     assert got.rank == len(got.columns) - 1 == results.model.rank
     assert [r["equation"] for r in got.dependencies] == ["w = u − 2·v"]
     assert got.gvif["w"]["gvif"] is None  # in an exact dependency: infinite

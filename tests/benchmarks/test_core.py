@@ -1,6 +1,7 @@
 """The benchmark runs end to end in its quick mode and prints its table (no timing checks).
 
-Reference: the table layout app.benchmarks.core promises (a header row and one verdict per goal).
+Reference: the table layout rankscope.benchmarks.core promises (a header row and one verdict
+per goal).
 """
 
 from __future__ import annotations
@@ -13,7 +14,7 @@ ROOT = Path(__file__).resolve().parents[2]
 
 
 def test_bench_quick_runs() -> None:
-    done = subprocess.run([sys.executable, "-m", "app.benchmarks.core", "--quick"], cwd=ROOT,
+    done = subprocess.run([sys.executable, "-m", "rankscope.benchmarks.core", "--quick"], cwd=ROOT,
                           capture_output=True, text=True, timeout=600)
     assert done.returncode == 0, done.stderr
     out = done.stdout

@@ -7,8 +7,8 @@ Reference: the driver's own count of failed requests, and its exit code.
 
 from __future__ import annotations
 
-from app.benchmarks import load
-from app.benchmarks.load_stats import KINDS
+from rankscope.benchmarks import load
+from rankscope.benchmarks.load_stats import KINDS
 
 
 def test_three_sessions_for_a_few_seconds_without_errors(capsys) -> None:

@@ -9,7 +9,7 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from app.benchmarks.load_stats import Sample, is_error, summarize, table_text
+from rankscope.benchmarks.load_stats import Sample, is_error, summarize, table_text
 
 
 @pytest.mark.parametrize(("status", "error"), [(200, False), (201, False), (409, False),

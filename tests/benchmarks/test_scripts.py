@@ -22,11 +22,11 @@ def _run(*args: str) -> str:
 
 def test_memory_benchmark_smoke(tmp_path: Path) -> None:
     """The benchmark script end to end on a tiny file (its goal is measured, not asserted)."""
-    out = _run("app.benchmarks.stream", "--mb", "2", "--dir", str(tmp_path))
+    out = _run("rankscope.benchmarks.stream", "--mb", "2", "--dir", str(tmp_path))
     assert "peak memory" in out and "planted x4 = x1 + 2·x2 − x3 found" in out
     assert list(tmp_path.iterdir()) == []  # the generated file was deleted
 
 
 def test_read_benchmark_smoke() -> None:
-    out = _run("app.benchmarks.read", "--mb", "0.5", "--repeat", "1")
+    out = _run("rankscope.benchmarks.read", "--mb", "0.5", "--repeat", "1")
     assert "read_table" in out and "pandas.read_csv" in out and "ratio pandas/read_table" in out

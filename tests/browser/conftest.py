@@ -12,7 +12,7 @@ from pathlib import Path
 import pytest
 import uvicorn
 
-from app.web.app import create_app
+from rankscope.web.app import create_app
 
 CHROMIUM = Path("/usr/bin/chromium")
 ROOT = Path(__file__).resolve().parents[2]

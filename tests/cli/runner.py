@@ -1,4 +1,4 @@
-"""Running `rankscope` in-process (main) or as `python -m app.cli`, capturing its output.
+"""Running `rankscope` in-process (main) or as `python -m rankscope.cli`, capturing its output.
 
 Test helper only: no checks here.
 """
@@ -13,7 +13,7 @@ import sys
 from dataclasses import dataclass
 from pathlib import Path
 
-from app.cli import main
+from rankscope.cli import main
 
 ROOT = Path(__file__).resolve().parents[2]
 DEMO = str(ROOT / "demo_data" / "cold_storage.csv")
@@ -45,7 +45,7 @@ def run(*args: str) -> Result:
 
 
 def run_process(*args: str) -> Result:
-    """`python -m app.cli args` in a fresh interpreter, as a user's shell would run it."""
-    p = subprocess.run([sys.executable, "-m", "app.cli", *args], cwd=ROOT, capture_output=True,
-                       text=True, timeout=120)
+    """`python -m rankscope.cli args` in a fresh interpreter, as a user's shell would run it."""
+    p = subprocess.run([sys.executable, "-m", "rankscope.cli", *args], cwd=ROOT,
+                       capture_output=True, text=True, timeout=120)
     return Result(p.returncode, p.stdout, p.stderr)

@@ -12,8 +12,8 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from app import cli
-from app.cli import stream_check
+from rankscope import cli
+from rankscope.cli import stream_check
 from tests.scale.stream_compare import differences
 
 

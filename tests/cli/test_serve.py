@@ -12,7 +12,7 @@ from tests.cli.runner import DEMO, run
 
 @pytest.fixture
 def calls(monkeypatch: pytest.MonkeyPatch) -> list[dict]:
-    server = pytest.importorskip("app.web.server")
+    server = pytest.importorskip("rankscope.web.server")
     seen: list[dict] = []
 
     def record(path, host, port, open_browser):
@@ -43,7 +43,7 @@ def test_bad_port_is_bad_input(calls: list[dict]) -> None:
 @pytest.fixture
 def full_calls(monkeypatch: pytest.MonkeyPatch) -> list[dict]:
     """Like calls, also keeping the options only given when asked for."""
-    server = pytest.importorskip("app.web.server")
+    server = pytest.importorskip("rankscope.web.server")
     seen: list[dict] = []
 
     def record(path, host, port, open_browser, **options):

@@ -9,7 +9,7 @@ from collections.abc import Callable
 
 import numpy as np
 
-from app.core import Diagnosis, diagnose
+from rankscope.core import Diagnosis, diagnose
 
 INT = "(intercept)"
 EPS = float(np.finfo(np.float64).eps)

@@ -18,7 +18,7 @@ import pytest
 import statsmodels.api as sm
 from statsmodels.stats.outliers_influence import variance_inflation_factor
 
-from app.core import Diagnosis
+from rankscope.core import Diagnosis
 from tests.core import exact as ex
 from tests.core.battery import (
     INT,

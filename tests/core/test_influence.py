@@ -10,8 +10,8 @@ import numpy as np
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from app.core import diagnose
-from app.core.influence import leave_one_out
+from rankscope.core import diagnose
+from rankscope.core.influence import leave_one_out
 
 
 def _brute(X: np.ndarray, scales: np.ndarray, basis: list[int], k: int | None) -> np.ndarray:

@@ -8,7 +8,7 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from app.core import diagnose
+from rankscope.core import diagnose
 from tests.core.nist import design, lre, problems
 
 PROBS = problems()

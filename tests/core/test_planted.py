@@ -10,7 +10,7 @@ import numpy as np
 from hypothesis import given
 from hypothesis import strategies as st
 
-from app.core import diagnose
+from rankscope.core import diagnose
 
 INT = "(intercept)"
 

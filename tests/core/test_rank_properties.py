@@ -18,7 +18,7 @@ import numpy as np
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from app.core import Diagnosis
+from rankscope.core import Diagnosis
 from tests.core import exact as ex
 from tests.core.battery import (
     INT,

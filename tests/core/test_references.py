@@ -15,8 +15,8 @@ from hypothesis import given
 from hypothesis import strategies as st
 from statsmodels.stats.outliers_influence import variance_inflation_factor as sm_vif
 
-from app.core import diagnose, factorize
-from app.core.fit import is_estimable
+from rankscope.core import diagnose, factorize
+from rankscope.core.fit import is_estimable
 
 
 def variance_inflation_factor(X: np.ndarray, j: int) -> float:

@@ -9,9 +9,9 @@ import numpy as np
 from hypothesis import given
 from hypothesis import strategies as st
 
-from app.core import diagnose, factorize
-from app.core.diagnosis import diagnose_factor
-from app.core.workspace import CONSTANT, Workspace
+from rankscope.core import diagnose, factorize
+from rankscope.core.diagnosis import diagnose_factor
+from rankscope.core.workspace import CONSTANT, Workspace
 
 DIGITS = 1e-10  # at least 10 significant digits
 

@@ -9,8 +9,8 @@ import numpy as np
 import pandas as pd
 from hypothesis import strategies as st
 
-from app.design.steps import COMBINE_METHODS, KIND_TARGETS, MISSING_POLICIES, SPECS
-from app.tables.table import Table
+from rankscope.design.steps import COMBINE_METHODS, KIND_TARGETS, MISSING_POLICIES, SPECS
+from rankscope.tables.table import Table
 from tests.design.tables import table
 
 NUMERIC = ["x1", "x2", "x3"]

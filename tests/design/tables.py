@@ -7,7 +7,7 @@ from __future__ import annotations
 
 import pandas as pd
 
-from app.tables.table import Table
+from rankscope.tables.table import Table
 
 
 def kind_of(series: pd.Series) -> str:

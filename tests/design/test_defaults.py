@@ -8,8 +8,8 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
-from app.design.design import INTERCEPT
-from app.design.recipe import Recipe, build_design
+from rankscope.design.design import INTERCEPT
+from rankscope.design.recipe import Recipe, build_design
 from tests.design.tables import table
 
 

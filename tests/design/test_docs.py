@@ -9,8 +9,8 @@ import json
 import re
 from pathlib import Path
 
-from app.design.recipe import Recipe
-from app.design.steps import SPECS, describe_step
+from rankscope.design.recipe import Recipe
+from rankscope.design.steps import SPECS, describe_step
 
 DOC = (Path(__file__).resolve().parents[2] / "docs" / "recipe.md").read_text(encoding="utf-8")
 

@@ -9,8 +9,8 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from app.design.recipe import Recipe, build_design
-from app.tables.errors import InputError
+from rankscope.design.recipe import Recipe, build_design
+from rankscope.tables.errors import InputError
 from tests.design.tables import table
 
 NAN = np.nan

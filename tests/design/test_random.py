@@ -10,10 +10,10 @@ import pandas as pd
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from app.design.design import INTERCEPT, Design
-from app.design.recipe import Recipe, build_design
-from app.tables.errors import InputError
-from app.tables.table import Table
+from rankscope.design.design import INTERCEPT, Design
+from rankscope.design.recipe import Recipe, build_design
+from rankscope.tables.errors import InputError
+from rankscope.tables.table import Table
 from tests.design.strategies import tables, tables_and_steps
 
 SETTINGS = settings(max_examples=100, deadline=None, suppress_health_check=[HealthCheck.too_slow])

@@ -14,10 +14,10 @@ import pandas as pd
 import pytest
 from hypothesis import HealthCheck, given, settings
 
-from app.design.recipe import Recipe, build_design
-from app.design.script import recipe_to_python
-from app.tables.errors import InputError
-from app.tables.table import Table
+from rankscope.design.recipe import Recipe, build_design
+from rankscope.design.script import recipe_to_python
+from rankscope.tables.errors import InputError
+from rankscope.tables.table import Table
 from tests.design.strategies import tables_and_steps
 from tests.design.tables import table
 

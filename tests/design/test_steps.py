@@ -8,8 +8,8 @@ from __future__ import annotations
 
 import pytest
 
-from app.design.steps import SPECS, describe_step, output_name, validate_step
-from app.tables.errors import InputError
+from rankscope.design.steps import SPECS, describe_step, output_name, validate_step
+from rankscope.tables.errors import InputError
 
 ONE_OF_EACH = [
     {"step": "response", "column": "y"},

@@ -9,7 +9,7 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from app.design.recipe import Recipe, build_design
+from rankscope.design.recipe import Recipe, build_design
 from tests.design.tables import table
 
 RNG = np.random.default_rng(20240611)

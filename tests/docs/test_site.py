@@ -23,9 +23,9 @@ RUN_COMMAND = (
     "python3 -m venv .venv && .venv/bin/pip install -q -e . && "
     ".venv/bin/rankscope serve demo_data/cold_storage.csv"
 )
-# The benchmark modules by their names under app/benchmarks/; the docs use no other.
+# The benchmark modules by their names under rankscope.benchmarks; the docs run no other.
 OLD_BENCHMARKS = ("app.bench ", "app.tables.bench_read", "app.web.bench_refit",
-                  "app.scale.bench_stream", "app.web.load")
+                  "app.scale.bench_stream", "app.web.load", "app.benchmarks")
 
 
 def readme() -> str:
@@ -94,15 +94,16 @@ def test_docs_name_the_benchmarks_by_their_new_modules() -> None:
             assert f"python -m {old}" not in text
     speed = (DOCS / "speed.md").read_text(encoding="utf-8")
     for new in ("core", "read", "refit", "load"):
-        assert f"python -m app.benchmarks.{new}" in speed
-    assert "python -m app.benchmarks.stream" in (DOCS / "big-files.md").read_text(encoding="utf-8")
+        assert f"python -m rankscope.benchmarks.{new}" in speed
+    big = (DOCS / "big-files.md").read_text(encoding="utf-8")
+    assert "python -m rankscope.benchmarks.stream" in big
 
 
 def test_readme_report_excerpt_is_what_check_prints() -> None:
     excerpt = re.search(r"An excerpt of the report.*?```\n(.*?)\n```", readme(), re.S).group(1)
-    run = subprocess.run([sys.executable, "-m", "app.cli", "check", "demo_data/cold_storage.csv",
-                          "--response", "energy_kwh"], cwd=ROOT, capture_output=True, text=True,
-                         timeout=120)
+    run = subprocess.run([sys.executable, "-m", "rankscope.cli", "check",
+                          "demo_data/cold_storage.csv", "--response", "energy_kwh"], cwd=ROOT,
+                         capture_output=True, text=True, timeout=120)
     assert run.returncode == 0, run.stderr
     printed = run.stdout.splitlines()
     for line in filter(None, excerpt.splitlines()):
@@ -115,7 +116,7 @@ def test_readme_python_example_runs_on_the_demo(monkeypatch, capsys) -> None:
     scope: dict = {}
     exec(compile(code, "README.md", "exec"), scope)
     printed = capsys.readouterr().out
-    assert "12 of 15" in printed
+    assert "7 of 9" in printed
     # references: °F = 32 + 1.8·°C (NIST SP 811 App. B.8); the 1959 pound is 0.45359237 kg
     assert "outdoor_temp_f = 32·(intercept) + 1.8·outdoor_temp_c" in printed
     assert "goods_in_kg = 0.45359237·goods_in_lb" in printed

@@ -1,5 +1,6 @@
-"""Live-server fixtures: `rankscope serve` run for real (python -m app.cli, see app.web.spawn)
-on a free loopback port with its own data folder, read until it listens, and always stopped.
+"""Live-server fixtures: `rankscope serve` run for real (python -m rankscope.cli, see
+rankscope.web.spawn) on a free loopback port with its own data folder, read until it
+listens, and always stopped.
 
 Helpers only; the checks are in the test modules.
 """
@@ -15,7 +16,7 @@ from typing import Any
 import httpx
 import pytest
 
-from app.web.spawn import LiveServer, free_port
+from rankscope.web.spawn import LiveServer, free_port
 
 __all__ = ["HELD", "LiveServer", "Writer", "free_port", "serve", "upload"]
 
@@ -32,7 +33,7 @@ def serve(tmp_path: Path) -> Iterator:
 
     def start(*args: str, data_dir: Path | None = None, held: bool = False) -> LiveServer:
         server = LiveServer(data_dir or tmp_path / "data", *args, held=held,
-                            launcher=HELD if held else ("-m", "app.cli"))
+                            launcher=HELD if held else ("-m", "rankscope.cli"))
         started.append(server)
         return server
 

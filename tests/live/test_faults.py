@@ -20,7 +20,7 @@ from pathlib import Path
 import httpx
 import pytest
 
-from app.store.store import DB_NAME
+from rankscope.store.store import DB_NAME
 from tests.live.conftest import HELD, LiveServer, Writer, upload
 from tests.web.conftest import to_csv, units_table
 
@@ -55,7 +55,7 @@ class Relay:
 
     def start(self, held: bool = False) -> LiveServer:
         server = LiveServer(self.data_dir, held=held, launcher=HELD if held else
-                            ("-m", "app.cli"))
+                            ("-m", "rankscope.cli"))
         self.started.append(server)
         return server
 

@@ -19,9 +19,9 @@ import httpx
 import pytest
 import uvicorn
 
-from app.web.access.limits import Limits
-from app.web.analyst import Analyst
-from app.web.app import create_app
+from rankscope.web.access.limits import Limits
+from rankscope.web.analyst import Analyst
+from rankscope.web.app import create_app
 from tests.web.conftest import to_csv, units_table
 
 BUDGET = 2.0

@@ -1,14 +1,14 @@
 """Which statistical cautions a diagnosis brings up, on small designs with known structure.
 
-Designs are built by hand here; the numbers come from app.core.diagnose.
+Designs are built by hand here; the numbers come from rankscope.core.diagnose.
 """
 
 from __future__ import annotations
 
 import numpy as np
 
-from app.core.diagnosis import diagnose
-from app.report.cautions import VIF_MARK, choose_cautions
+from rankscope.core.diagnosis import diagnose
+from rankscope.report.cautions import VIF_MARK, choose_cautions
 
 RNG = np.random.default_rng(7)
 N = 60

@@ -16,9 +16,9 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from app.design.design import Design
-from app.design.recipe import Recipe, build_design
-from app.report.export import (
+from rankscope.design.design import Design
+from rankscope.design.recipe import Recipe, build_design
+from rankscope.report.export import (
     FORMULA_START,
     design_csv,
     design_csv_chunks,
@@ -28,8 +28,8 @@ from app.report.export import (
     recipe_json,
     recipe_script,
 )
-from app.tables.errors import InputError
-from app.tables.read import read_table
+from rankscope.tables.errors import InputError
+from rankscope.tables.read import read_table
 
 #: Reference: OWASP, "CSV Injection" (quoted from memory): a cell that begins with =, +, -
 #: or @ (also tab or carriage return) can run as a formula; prefix it with a single quote.

@@ -15,10 +15,10 @@ import numpy as np
 import plotly
 import pytest
 
-from app.core.diagnosis import diagnose
-from app.design.design import Design
-from app.design.recipe import Recipe, build_design
-from app.report.html import render_html
+from rankscope.core.diagnosis import diagnose
+from rankscope.design.design import Design
+from rankscope.design.recipe import Recipe, build_design
+from rankscope.report.html import render_html
 from tests.design.tables import table
 
 CHROMIUM = Path("/usr/bin/chromium")

@@ -1,9 +1,9 @@
 """Remedy previews equal the analysis after the change is applied.
 
 Reference for every check: the same recipe with the remedy's steps appended, replayed on the
-rows and analysed from scratch (app.design + app.core.diagnose), so the preview, computed on
-the factor alone, is held to what the user would see after clicking it. Centering is also
-held to statsmodels' auxiliary regressions on the centered data.
+rows and analysed from scratch (rankscope.design + rankscope.core.diagnose), so the preview,
+computed on the factor alone, is held to what the user would see after clicking it.
+Centering is also held to statsmodels' auxiliary regressions on the centered data.
 """
 
 from __future__ import annotations
@@ -17,12 +17,12 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 from statsmodels.stats.outliers_influence import variance_inflation_factor
 
-from app.core.diagnosis import diagnose_factor
-from app.core.factor import factorize
-from app.core.preview import summarize
-from app.design.recipe import Recipe, build_design
-from app.report.remedies import remedies_of
-from app.tables.read import read_table
+from rankscope.core.diagnosis import diagnose_factor
+from rankscope.core.factor import factorize
+from rankscope.core.preview import summarize
+from rankscope.design.recipe import Recipe, build_design
+from rankscope.report.remedies import remedies_of
+from rankscope.tables.read import read_table
 
 REL = 1e-9
 

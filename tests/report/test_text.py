@@ -8,9 +8,9 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from app.core.diagnosis import diagnose
-from app.design.design import INTERCEPT, Design
-from app.report.text import num, render_text
+from rankscope.core.diagnosis import diagnose
+from rankscope.design.design import INTERCEPT, Design
+from rankscope.report.text import num, render_text
 from tests.cli.runner import DEMO, REDUCED, run
 
 SECTIONS = [

@@ -7,7 +7,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from app.core.diagnosis import Diagnosis
+from rankscope.core.diagnosis import Diagnosis
 
 DIGITS = 1e-10  # at least 10 significant digits
 EPS = float(np.finfo(np.float64).eps)

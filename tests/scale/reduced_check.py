@@ -5,8 +5,8 @@ Compares a session's diagnosis with the in-memory analysis of the same rows.
 
 from __future__ import annotations
 
-from app.core import diagnose
-from app.design.design import Design
+from rankscope.core import diagnose
+from rankscope.design.design import Design
 
 
 def close(a: float | None, b: float | None, rel: float = 1e-10) -> bool:

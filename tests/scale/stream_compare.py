@@ -8,10 +8,10 @@ from __future__ import annotations
 import math
 from pathlib import Path
 
-from app.core.diagnosis import diagnose, diagnose_factor
-from app.design.recipe import Recipe, build_design
-from app.scale.stream import stream_factor
-from app.tables.read import read_table
+from rankscope.core.diagnosis import diagnose, diagnose_factor
+from rankscope.design.recipe import Recipe, build_design
+from rankscope.scale.stream import stream_factor
+from rankscope.tables.read import read_table
 
 REL = 1e-10
 #: Fields that exist only with the rows in memory (rank correlations, residuals on rows,

@@ -8,7 +8,7 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
-from app.tables.table import Table
+from rankscope.tables.table import Table
 
 LEVELS = ("p", "q", "r", "s")
 

@@ -19,9 +19,9 @@ except ImportError:  # pragma: no cover - depends on the environment
     pytest.skip("dask[distributed] is not installed (pip install -e '.[dask]')",
                 allow_module_level=True)
 
-from app.scale.dask_engine import dask_factor, dask_stream, pieces
-from app.scale.stream import stream_factor
-from app.tables.errors import InputError
+from rankscope.scale.dask_engine import dask_factor, dask_stream, pieces
+from rankscope.scale.stream import stream_factor
+from rankscope.tables.errors import InputError
 from tests.scale.stream_compare import differences, in_memory, streamed
 
 STEPS = {
@@ -91,7 +91,7 @@ def test_cluster_equals_in_memory(dataset, cluster, name: str) -> None:
     folder, whole = dataset
     steps = STEPS[name]
     F, info = dask_stream(folder, steps, cluster.scheduler_address)
-    from app.core.diagnosis import diagnose_factor
+    from rankscope.core.diagnosis import diagnose_factor
 
     got = diagnose_factor(F, response=info.response, groups=info.groups).to_dict()
     ref, design = in_memory(whole, steps)

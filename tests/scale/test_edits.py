@@ -11,13 +11,13 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from app.core import conditioning as cnd
-from app.core import factorize
-from app.core.diagnosis import diagnose_factor
-from app.design.design import INTERCEPT
-from app.design.recipe import Recipe, build_design
-from app.scale import EditEngine
-from app.tables.errors import InputError
+from rankscope.core import conditioning as cnd
+from rankscope.core import factorize
+from rankscope.core.diagnosis import diagnose_factor
+from rankscope.design.design import INTERCEPT
+from rankscope.design.recipe import Recipe, build_design
+from rankscope.scale import EditEngine
+from rankscope.tables.errors import InputError
 from tests.scale.compare import assert_same, assert_same_gram, close
 from tests.scale.tables import LEVELS, random_table
 

@@ -13,10 +13,10 @@ import pandas as pd
 import pytest
 from fastapi.testclient import TestClient
 
-from app.design.recipe import Recipe, build_design
-from app.scale.reduced_steps import ROWS_NEEDED
-from app.tables.read import read_table
-from app.web.engines import create_stream_app
+from rankscope.design.recipe import Recipe, build_design
+from rankscope.scale.reduced_steps import ROWS_NEEDED
+from rankscope.tables.read import read_table
+from rankscope.web.engines import create_stream_app
 from tests.scale.reduced_check import assert_same_diagnosis, reference
 from tests.scale.test_web_stream import BLOCK, RECIPE, WAIT, rows
 

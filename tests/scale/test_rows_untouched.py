@@ -7,11 +7,11 @@ from __future__ import annotations
 
 import pytest
 
-import app.design.recipe
-import app.design.replay
-import app.scale.start
-from app.design.recipe import Recipe
-from app.scale import EditEngine
+import rankscope.design.recipe
+import rankscope.design.replay
+import rankscope.scale.start
+from rankscope.design.recipe import Recipe
+from rankscope.scale import EditEngine
 from tests.scale.tables import random_table
 
 
@@ -24,9 +24,12 @@ def _refuse(*args, **kwargs):
 
 
 def block_rows(monkeypatch: pytest.MonkeyPatch) -> None:
-    for module, name in ((app.design.recipe, "build_design"), (app.design.replay, "trace_design"),
-                         (app.design.replay, "run_steps"), (app.scale.start, "trace_design"),
-                         (app.scale.start, "run_steps"), (app.scale.start, "reduce_blocks")):
+    for module, name in ((rankscope.design.recipe, "build_design"),
+                         (rankscope.design.replay, "trace_design"),
+                         (rankscope.design.replay, "run_steps"),
+                         (rankscope.scale.start, "trace_design"),
+                         (rankscope.scale.start, "run_steps"),
+                         (rankscope.scale.start, "reduce_blocks")):
         monkeypatch.setattr(module, name, _refuse)
 
 

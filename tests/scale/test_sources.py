@@ -12,12 +12,12 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from app.core.diagnosis import diagnose_factor
-from app.scale.reduced import Reduced, engine_of
-from app.scale.sources import ReducedSource, RowsSource, UnkeptSource
-from app.scale.stream import stream_factor
-from app.tables.errors import InputError
-from app.tables.read import read_table
+from rankscope.core.diagnosis import diagnose_factor
+from rankscope.scale.reduced import Reduced, engine_of
+from rankscope.scale.sources import ReducedSource, RowsSource, UnkeptSource
+from rankscope.scale.stream import stream_factor
+from rankscope.tables.errors import InputError
+from rankscope.tables.read import read_table
 from tests.web.conftest import to_csv, units_table
 
 RECIPE = [{"step": "response", "column": "load"}]

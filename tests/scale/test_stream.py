@@ -13,9 +13,9 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from app.scale import stream_source
-from app.scale.stream import Cancelled, stream_factor
-from app.tables.errors import InputError
+from rankscope.scale import stream_source
+from rankscope.scale.stream import Cancelled, stream_factor
+from rankscope.tables.errors import InputError
 from tests.scale.stream_compare import differences, in_memory, streamed
 
 N = 1800

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import io
 
-from app.scale.stream_bar import ProgressBar
+from rankscope.scale.stream_bar import ProgressBar
 
 
 def test_progress_bar_redraws_one_line_on_a_terminal() -> None:

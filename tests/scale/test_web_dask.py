@@ -19,11 +19,11 @@ if not os.environ.get("CI"):
 from dask.distributed import LocalCluster  # noqa: E402
 from fastapi.testclient import TestClient  # noqa: E402
 
-from app.design.recipe import Recipe, build_design
-from app.scale.reduced_steps import ROWS_NEEDED
-from app.tables.read import read_table
-from app.web.app import create_app
-from app.web.engines import create_dask_app, open_store
+from rankscope.design.recipe import Recipe, build_design
+from rankscope.scale.reduced_steps import ROWS_NEEDED
+from rankscope.tables.read import read_table
+from rankscope.web.app import create_app
+from rankscope.web.engines import create_dask_app, open_store
 from tests.scale.reduced_check import assert_matches_in_memory
 
 RECIPE = [{"step": "response", "column": "load"}]

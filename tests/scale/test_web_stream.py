@@ -14,10 +14,10 @@ import pandas as pd
 import pytest
 from fastapi.testclient import TestClient
 
-from app.design.recipe import Recipe, build_design
-from app.scale import reduction
-from app.tables.read import read_table
-from app.web.engines import create_stream_app
+from rankscope.design.recipe import Recipe, build_design
+from rankscope.scale import reduction
+from rankscope.tables.read import read_table
+from rankscope.web.engines import create_stream_app
 from tests.scale.reduced_check import assert_matches_in_memory
 
 RECIPE = [{"step": "response", "column": "load"}]

@@ -10,7 +10,7 @@ from pathlib import Path
 
 import pytest
 
-from app.store import Store
+from rankscope.store import Store
 
 
 @pytest.fixture

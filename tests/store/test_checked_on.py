@@ -10,9 +10,9 @@ from pathlib import Path
 
 import pytest
 
-from app.store import Applied, Change, Conflict, Store
-from app.store.check import replay_check
-from app.tables.errors import InputError
+from rankscope.store import Applied, Change, Conflict, Store
+from rankscope.store.check import replay_check
+from rankscope.tables.errors import InputError
 from tests.store.data import csv_bytes
 
 

@@ -18,8 +18,8 @@ from pathlib import Path
 
 import pytest
 
-from app.design.recipe import build_design
-from app.store import Applied, Change, Conflict, Store
+from rankscope.design.recipe import build_design
+from rankscope.store import Applied, Change, Conflict, Store
 from tests.store.data import TOGGLED, csv_bytes
 from tests.store.worker import race
 

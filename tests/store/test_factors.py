@@ -5,7 +5,7 @@ from __future__ import annotations
 
 from pathlib import Path
 
-from app.store import Store
+from rankscope.store import Store
 from tests.store.data import csv_bytes
 
 

@@ -18,10 +18,10 @@ import pytest
 from hypothesis import given
 from hypothesis import strategies as st
 
-from app.design.recipe import Recipe
-from app.store import Applied, Change, Conflict, SessionNotFound, Store
-from app.tables.errors import InputError
-from app.tables.read import read_bytes
+from rankscope.design.recipe import Recipe
+from rankscope.store import Applied, Change, Conflict, SessionNotFound, Store
+from rankscope.tables.errors import InputError
+from rankscope.tables.read import read_bytes
 from tests.store.data import TOGGLED, SnapshotUndo, csv_bytes
 
 

@@ -10,8 +10,8 @@ import sys
 
 import numpy as np
 
-from app.store import Applied, Change, Conflict, Store
-from app.tables.errors import InputError
+from rankscope.store import Applied, Change, Conflict, Store
+from rankscope.tables.errors import InputError
 from tests.store.data import TOGGLED
 
 

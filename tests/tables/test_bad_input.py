@@ -11,8 +11,8 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from app.tables.errors import InputError
-from app.tables.read import read_bytes, read_table
+from rankscope.tables.errors import InputError
+from rankscope.tables.read import read_bytes, read_table
 
 
 def error(data: bytes, filename: str = "data.csv", **kw) -> InputError:

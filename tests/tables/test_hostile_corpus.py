@@ -14,10 +14,10 @@ from pathlib import Path
 import pytest
 from fastapi.testclient import TestClient
 
-from app.tables.errors import InputError
-from app.tables.read import read_bytes, read_table
-from app.web.access.limits import Limits
-from app.web.app import create_app
+from rankscope.tables.errors import InputError
+from rankscope.tables.read import read_bytes, read_table
+from rankscope.web.access.limits import Limits
+from rankscope.web.app import create_app
 from tests.data.hostile import make_corpus
 
 CORPUS = make_corpus.HERE

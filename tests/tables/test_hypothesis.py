@@ -17,9 +17,9 @@ from hypothesis import assume, event, given
 from hypothesis import strategies as st
 from pandas._libs.parsers import STR_NA_VALUES
 
-from app.tables.errors import InputError
-from app.tables.read import read_bytes
-from app.tables.text import FALSE_WORDS, MISSING_MARKERS, TRUE_WORDS
+from rankscope.tables.errors import InputError
+from rankscope.tables.read import read_bytes
+from rankscope.tables.text import FALSE_WORDS, MISSING_MARKERS, TRUE_WORDS
 
 EXTRA_MARKERS = [m for m in MISSING_MARKERS if m not in STR_NA_VALUES]
 DELIMS = [",", ";", "\t", "|"]

@@ -6,9 +6,9 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from app.tables.errors import InputError
-from app.tables.read import missing_summary, read_bytes, with_kinds
-from app.tables.table import Table
+from rankscope.tables.errors import InputError
+from rankscope.tables.read import missing_summary, read_bytes, with_kinds
+from rankscope.tables.table import Table
 
 
 def read(text: str, **kw) -> Table:

@@ -10,7 +10,7 @@ import pyarrow as pa
 import pyarrow.parquet as pq
 import pytest
 
-from app.tables.read import read_bytes, read_table
+from rankscope.tables.read import read_bytes, read_table
 
 
 @pytest.fixture

@@ -9,7 +9,7 @@ import numpy as np
 import pytest
 from fastapi.testclient import TestClient
 
-from app.web.app import create_app
+from rankscope.web.app import create_app
 
 #: Kilograms per avoirdupois pound, exact by definition (international yard and pound
 #: agreement, 1959).

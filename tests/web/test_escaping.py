@@ -16,7 +16,7 @@ from pathlib import Path
 import pytest
 from fastapi.testclient import TestClient
 
-from app.report.figures import plot_text
+from rankscope.report.figures import plot_text
 from tests.cli.runner import run
 from tests.web.markup_table import (
     ACTIVE,

@@ -8,8 +8,8 @@ import json
 import numpy as np
 import pytest
 
-from app.core import diagnose
-from app.report import figures
+from rankscope.core import diagnose
+from rankscope.report import figures
 from tests.web.conftest import units_table
 
 

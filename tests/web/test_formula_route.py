@@ -6,8 +6,8 @@ from __future__ import annotations
 
 import pytest
 
-import app
-from app.design.formula import formula_design
+import rankscope
+from rankscope.design.formula import formula_design
 from tests.web.conftest import step
 
 FORMULA = "load ~ temp_c + temp_f + mass_lb + C(region) + hours:region"
@@ -28,7 +28,7 @@ def test_formula_opens_a_session_on_its_design(client, sid):
     # Reference: the same formula on the session's table through the design layer.
     table = client.app.state.analyst.session(sid).table
     design = formula_design(table, FORMULA)
-    expected = app.inspect(table, formula=FORMULA)
+    expected = rankscope.inspect(table, formula=FORMULA)
     assert got["columns"] == design.columns
     assert [d["equation"] for d in got["dependencies"]] == [
         d["equation"] for d in expected.dependencies]  # °F = 32 + 1.8·°C, in the formula's names

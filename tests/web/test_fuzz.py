@@ -18,8 +18,8 @@ from fastapi.testclient import TestClient
 from hypothesis import HealthCheck, event, given, settings
 from hypothesis import strategies as st
 
-from app.design.steps import SPECS
-from app.web.app import create_app
+from rankscope.design.steps import SPECS
+from rankscope.web.app import create_app
 from tests.web.conftest import to_csv, units_table
 
 #: Examples per endpoint: enough to reach the odd corners, few enough to keep the suite fast

@@ -18,11 +18,11 @@ import pyarrow.parquet as pq
 import pytest
 from fastapi.testclient import TestClient
 
-from app.cli import build_parser, main, serve_limits
-from app.web.access.limits import MB, Limits
-from app.web.analyst import Analyst
-from app.web.app import create_app
-from app.web.budget import AnalysisTooSlow, Budget
+from rankscope.cli import build_parser, main, serve_limits
+from rankscope.web.access.limits import MB, Limits
+from rankscope.web.analyst import Analyst
+from rankscope.web.app import create_app
+from rankscope.web.budget import AnalysisTooSlow, Budget
 from tests.web.conftest import to_csv, units_table
 
 SMALL = Limits(max_upload_bytes=5_000, max_rows=50, max_columns=4, analysis_seconds=None)
@@ -99,8 +99,8 @@ def test_columns_over_limit_refused_from_the_header(small: TestClient) -> None:
 
 
 def test_header_longer_than_the_sample_is_counted_as_at_least() -> None:
-    from app.tables.errors import InputError
-    from app.tables.read import read_bytes
+    from rankscope.tables.errors import InputError
+    from rankscope.tables.read import read_bytes
 
     header = ",".join(f"a_rather_long_column_name_{j}" for j in range(5000))
     with pytest.raises(InputError) as info:

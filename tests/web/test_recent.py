@@ -6,7 +6,7 @@ Reference: the weights summed by hand over the entries left.
 
 from __future__ import annotations
 
-from app.web.recent import Recent, cells
+from rankscope.web.recent import Recent, cells
 
 
 def test_small_entries_stay_many_and_large_ones_keep_the_floor() -> None:

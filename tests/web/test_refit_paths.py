@@ -12,9 +12,9 @@ import numpy as np
 import pytest
 from fastapi.testclient import TestClient
 
-from app.core.diagnosis import Diagnosis
-from app.design.recipe import build_design
-from app.web.analyst import Analysis, analyse
+from rankscope.core.diagnosis import Diagnosis
+from rankscope.design.recipe import build_design
+from rankscope.web.analyst import Analysis, analyse
 from tests.scale.compare import assert_same, close
 from tests.web.conftest import step, to_csv
 

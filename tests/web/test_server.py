@@ -13,8 +13,8 @@ from pathlib import Path
 import httpx
 import pytest
 
-from app.tables.errors import InputError
-from app.web.server import run
+from rankscope.tables.errors import InputError
+from rankscope.web.server import run
 from tests.browser.conftest import demo_path
 
 ROOT = Path(__file__).resolve().parents[2]
@@ -34,7 +34,7 @@ def test_missing_file_is_refused_before_serving(tmp_path) -> None:
 
 def test_run_serves_the_given_file() -> None:
     port = _free_port()
-    code = f"from app.web.server import run; run({str(DEMO)!r}, '127.0.0.1', {port}, False)"
+    code = f"from rankscope.web.server import run; run({str(DEMO)!r}, '127.0.0.1', {port}, False)"
     proc = subprocess.Popen([sys.executable, "-c", code], cwd=ROOT, stdout=subprocess.PIPE,
                             stderr=subprocess.STDOUT, text=True)
     try:

@@ -98,11 +98,11 @@ def test_a_saved_state_that_no_longer_analyses_can_still_be_walked_back(tmp_path
     from fastapi.testclient import TestClient
     from markupsafe import escape
 
-    from app.design.recipe import Recipe, build_design
-    from app.store import Store
-    from app.tables.errors import InputError
-    from app.tables.read import read_bytes
-    from app.web.app import create_app
+    from rankscope.design.recipe import Recipe, build_design
+    from rankscope.store import Store
+    from rankscope.tables.errors import InputError
+    from rankscope.tables.read import read_bytes
+    from rankscope.web.app import create_app
     from tests.web.conftest import to_csv
 
     store = Store(tmp_path / "data", check=lambda table, before, change: None)

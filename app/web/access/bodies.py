@@ -6,7 +6,7 @@ from __future__ import annotations
 
 from typing import Any
 
-from app.tables.errors import InputError
+from rankscope.tables.errors import InputError
 
 
 def sound_text(body: Any, where: str = "request body") -> Any:

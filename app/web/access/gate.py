@@ -15,7 +15,7 @@ from urllib.parse import parse_qs
 
 import anyio
 
-from app.web.rendering.render import render
+from rankscope.web.rendering.render import render
 
 #: Where a client may put its token: ?t= on a link, this header on API calls, or the
 #: cookie a link leaves behind (one per session, so several sessions can be open).

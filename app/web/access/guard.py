@@ -10,7 +10,7 @@ import json
 from collections.abc import Callable, Collection
 from urllib.parse import urlsplit
 
-from app.web.rendering.render import render
+from rankscope.web.rendering.render import render
 
 #: Names that reach this computer only. Browsers send IPv6 literals in brackets (RFC 3986).
 LOOPBACK_NAMES = ("127.0.0.1", "localhost", "[::1]")

@@ -12,7 +12,7 @@ from starlette.types import ASGIApp, Receive, Scope, Send
 #: The routes are plain `def`s, run on anyio's worker threads (40 by default). Forty
 #: CPU-bound requests share one interpreter lock: each takes forty times its own time, and
 #: all finish late together. With 8 they wait their turn in arrival order and each answers
-#: soon after it starts: measured with `python -m app.benchmarks.load` (README, "Under load"), p95
+#: soon after it starts: measured with `python -m rankscope.benchmarks.load` (docs/speed.md), p95
 #: 1.2 s with 40 threads, 0.8 s with 8, at the same request rate. The analysis workers
 #: (Limits.workers, 2 on 2 cores) leave threads for light requests while they are busy,
 #: and a request's body is received before it takes a thread.

@@ -12,8 +12,8 @@ import os
 import secrets
 from pathlib import Path
 
-from app.store.tokens import TOKEN_BYTES
-from app.tables.errors import InputError
+from rankscope.store.tokens import TOKEN_BYTES
+from rankscope.tables.errors import InputError
 
 #: The key file, in the data folder beside the database (owner-only, like the folder).
 KEY_FILE = "web.key"

@@ -7,16 +7,16 @@ from __future__ import annotations
 
 from collections.abc import Iterator
 
-from app.design.recipe import build_design
-from app.report.export import (
+from rankscope.design.recipe import build_design
+from rankscope.report.export import (
     design_csv_chunks,
     download_name,
     recipe_json,
     recipe_script,
     render_html,
 )
-from app.web.analyst import Analyst, settings_of
-from app.web.state import Session
+from rankscope.web.analyst import Analyst, settings_of
+from rankscope.web.state import Session
 
 #: The downloads a session offers: key -> (file name suffix, media type).
 KINDS = {

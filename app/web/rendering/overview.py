@@ -9,7 +9,7 @@ from dataclasses import dataclass, field
 
 import pandas as pd
 
-from app.tables.table import Table
+from rankscope.tables.table import Table
 
 
 @dataclass(frozen=True)

@@ -10,18 +10,20 @@ from typing import Any
 
 from jinja2 import Environment, FileSystemLoader, select_autoescape
 
-from app.design.steps import COMBINE_METHODS
-from app.report.cautions import choose_cautions
-from app.report.figures import all_figures
-from app.tables.errors import InputError
-from app.web.analyst import Analysis, Analyst, describe_change
-from app.web.rendering import views
-from app.web.rendering.compare import FitRef, compare_fits, summary_pairs
-from app.web.state import Session
+from rankscope.design.steps import COMBINE_METHODS
+from rankscope.report.cautions import choose_cautions
+from rankscope.report.figures import all_figures
+from rankscope.tables.errors import InputError
+from rankscope.web.analyst import Analysis, Analyst, describe_change
+from rankscope.web.rendering import views
+from rankscope.web.rendering.compare import FitRef, compare_fits, summary_pairs
+from rankscope.web.state import Session
 
 ROOT = Path(__file__).resolve().parents[3]
-TEMPLATES = ROOT / "templates"
-STATIC = ROOT / "static"
+#: In a checkout the pages' files sit beside app/; installed from a wheel, inside the package.
+_PACKAGE = Path(__file__).resolve().parents[2]
+TEMPLATES = ROOT / "templates" if (ROOT / "templates").is_dir() else _PACKAGE / "templates"
+STATIC = ROOT / "static" if (ROOT / "static").is_dir() else _PACKAGE / "static"
 
 #: Kinds of design change the controls offer, as (step, label) pairs.
 SCALINGS = [("center", "Center (subtract the mean)"),

@@ -10,9 +10,9 @@ from dataclasses import dataclass
 from datetime import datetime
 from typing import Any
 
-from app.design.design import INTERCEPT
-from app.design.names import quoted
-from app.web.analyst import Analysis
+from rankscope.design.design import INTERCEPT
+from rankscope.design.names import quoted
+from rankscope.web.analyst import Analysis
 
 SUPERSCRIPT = str.maketrans("-0123456789", "⁻⁰¹²³⁴⁵⁶⁷⁸⁹")
 

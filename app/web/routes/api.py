@@ -12,20 +12,20 @@ from typing import Annotated, Any, TypeVar
 from fastapi import APIRouter, Body, File, Request, UploadFile
 from fastapi.responses import JSONResponse
 
-from app.design.names import quoted
-from app.report.figures import all_figures, correlation_heatmap
-from app.store import Applied, Conflict, SessionNotFound
-from app.tables.errors import InputError
-from app.tables.read import read_bytes
-from app.web.access.bodies import safe_text, sound_text
-from app.web.access.gate import COOKIE_SECONDS, can_edit, cookie_name
-from app.web.access.limits import Limits
-from app.web.analyst import Analyst, UnknownSession, settings_of
-from app.web.budget import AnalysisTooSlow
-from app.web.live.feed import Hub
-from app.web.rendering.render import current_html
-from app.web.rendering.views import plain
-from app.web.state import CHANGE_KINDS, Change, Session
+from rankscope.design.names import quoted
+from rankscope.report.figures import all_figures, correlation_heatmap
+from rankscope.store import Applied, Conflict, SessionNotFound
+from rankscope.tables.errors import InputError
+from rankscope.tables.read import read_bytes
+from rankscope.web.access.bodies import safe_text, sound_text
+from rankscope.web.access.gate import COOKIE_SECONDS, can_edit, cookie_name
+from rankscope.web.access.limits import Limits
+from rankscope.web.analyst import Analyst, UnknownSession, settings_of
+from rankscope.web.budget import AnalysisTooSlow
+from rankscope.web.live.feed import Hub
+from rankscope.web.rendering.render import current_html
+from rankscope.web.rendering.views import plain
+from rankscope.web.state import CHANGE_KINDS, Change, Session
 
 # Every route is a plain `def`: FastAPI runs it in its thread pool, so a long refit never
 # blocks the event loop that serves other requests.

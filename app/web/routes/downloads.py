@@ -8,9 +8,9 @@ from __future__ import annotations
 from fastapi import APIRouter, Request
 from fastapi.responses import Response, StreamingResponse
 
-from app.tables.errors import InputError
-from app.web.rendering import exports
-from app.web.routes.api import analyst_of, guarded
+from rankscope.tables.errors import InputError
+from rankscope.web.rendering import exports
+from rankscope.web.routes.api import analyst_of, guarded
 
 router = APIRouter(prefix="/api")
 

@@ -13,17 +13,17 @@ import pyarrow.parquet as pq
 from fastapi import APIRouter, Body, Request
 from fastapi.responses import JSONResponse
 
-from app.store.records import Created
-from app.store.store import MAX_TITLE
-from app.tables.errors import InputError
-from app.tables.read import read_bytes
-from app.tables.table import Table
-from app.web.access.bodies import sound_text
-from app.web.access.gate import COOKIE_SECONDS, cookie_name
-from app.web.access.limits import Limits
-from app.web.analyst import Analyst
-from app.web.routes.api import analyst_of, guarded
-from app.web.state import Change, Session
+from rankscope.store.records import Created
+from rankscope.store.store import MAX_TITLE
+from rankscope.tables.errors import InputError
+from rankscope.tables.read import read_bytes
+from rankscope.tables.table import Table
+from rankscope.web.access.bodies import sound_text
+from rankscope.web.access.gate import COOKIE_SECONDS, cookie_name
+from rankscope.web.access.limits import Limits
+from rankscope.web.analyst import Analyst
+from rankscope.web.routes.api import analyst_of, guarded
+from rankscope.web.state import Change, Session
 
 router = APIRouter(prefix="/api")
 
@@ -58,7 +58,7 @@ def from_formula(request: Request, session_id: str, body: Annotated[Any, Body()]
     text = sound_text(body).get("formula") if isinstance(body, dict) else None
     if not isinstance(text, str) or not text.strip():
         raise InputError("the formula is empty", "formula", "Write it like y ~ a + b + C(g)")
-    from app.design.formula import start
+    from rankscope.design.formula import start
 
     bench = analyst_of(request)
     session = bench.session(session_id)

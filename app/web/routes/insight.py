@@ -9,12 +9,12 @@ from typing import Any
 
 from fastapi import APIRouter, Request
 
-from app.report.figures import influence_chart
-from app.web import insight
-from app.web.access.gate import can_edit
-from app.web.rendering.render import render
-from app.web.rendering.views import plain
-from app.web.routes.api import analyst_of, guarded
+from rankscope.report.figures import influence_chart
+from rankscope.web import insight
+from rankscope.web.access.gate import can_edit
+from rankscope.web.rendering.render import render
+from rankscope.web.rendering.views import plain
+from rankscope.web.routes.api import analyst_of, guarded
 
 router = APIRouter(prefix="/api")
 

@@ -8,12 +8,12 @@ from __future__ import annotations
 from fastapi import APIRouter, Request
 from fastapi.responses import HTMLResponse
 
-from app.tables import sniff
-from app.tables.errors import InputError
-from app.web.access.gate import can_edit, role_of
-from app.web.analyst import Analyst
-from app.web.rendering.overview import summarize
-from app.web.rendering.render import compare_context, current_html, render
+from rankscope.tables import sniff
+from rankscope.tables.errors import InputError
+from rankscope.web.access.gate import can_edit, role_of
+from rankscope.web.analyst import Analyst
+from rankscope.web.rendering.overview import summarize
+from rankscope.web.rendering.render import compare_context, current_html, render
 
 router = APIRouter()
 

@@ -9,7 +9,7 @@ from typing import Any
 from fastapi import APIRouter, Request
 from fastapi.responses import HTMLResponse, RedirectResponse
 
-from app.web.rendering.render import render
+from rankscope.web.rendering.render import render
 
 router = APIRouter()
 

@@ -9,15 +9,15 @@ import anyio
 from fastapi import APIRouter, Body, File, Form, Request, UploadFile
 from fastapi.responses import JSONResponse, StreamingResponse
 
-from app.report.export import MAX_RECIPE_BYTES
-from app.tables.errors import InputError
-from app.web.access import links
-from app.web.access.bodies import sound_text
-from app.web.access.gate import can_edit, cookie_name, role_of, token_of
-from app.web.analyst import UnknownSession
-from app.web.recipes import import_steps
-from app.web.routes.api import analyst_of, guarded, live_of, state_of
-from app.web.stored import StoredSessions
+from rankscope.report.export import MAX_RECIPE_BYTES
+from rankscope.tables.errors import InputError
+from rankscope.web.access import links
+from rankscope.web.access.bodies import sound_text
+from rankscope.web.access.gate import can_edit, cookie_name, role_of, token_of
+from rankscope.web.analyst import UnknownSession
+from rankscope.web.recipes import import_steps
+from rankscope.web.routes.api import analyst_of, guarded, live_of, state_of
+from rankscope.web.stored import StoredSessions
 
 router = APIRouter(prefix="/api")
 

@@ -12,8 +12,8 @@ from urllib.parse import parse_qs, urlsplit
 import pytest
 from fastapi.testclient import TestClient
 
-from app.web.access.guard import CSP, hosts_for, split_host
-from app.web.app import create_app
+from rankscope.web.access.guard import CSP, hosts_for, split_host
+from rankscope.web.app import create_app
 from tests.web.conftest import to_csv, units_table
 
 # ---- Host (DNS rebinding) -------------------------------------------------------------

@@ -13,8 +13,8 @@ from starlette.requests import Request
 from starlette.responses import JSONResponse
 from starlette.routing import Route
 
-from app.web.access.lanes import REQUEST_THREADS, RequestThreads
-from app.web.app import create_app
+from rankscope.web.access.lanes import REQUEST_THREADS, RequestThreads
+from rankscope.web.app import create_app
 
 
 async def tokens(request: Request) -> JSONResponse:

@@ -17,7 +17,7 @@ import pytest
 from fastapi.testclient import TestClient
 from starlette.routing import Route
 
-from app.web.app import create_app
+from rankscope.web.app import create_app
 from tests.web.conftest import step, to_csv
 
 SAFE = {"GET", "HEAD", "OPTIONS"}  # RFC 9110 §9.2.1: the methods defined as safe
@@ -202,7 +202,7 @@ def units_copy() -> dict:
 
 
 def test_tokens_are_stored_hashed(tmp_path: Path, table) -> None:
-    from app.store import Store
+    from rankscope.store import Store
 
     store = Store(tmp_path / "data")
     app = create_app(store)
