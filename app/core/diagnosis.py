@@ -201,7 +201,7 @@ def diagnose_factor(
         involved.update(r.combination)
 
     # Condition numbers of raw, unit-length, and centered-and-scaled X.
-    sv_raw = F.svd_raw[1]
+    sv_raw = F.singular_values_raw
     cen = F.centered[:, :p]
     nonconst = [j for j in range(p) if j not in consts and j not in F.zero_columns]
     Zc = cnd.unit_columns(cen, nonconst)
@@ -224,11 +224,9 @@ def diagnose_factor(
     in_basis = sorted(basis.basis)
     table = cnd.index_table(R_eq[:, in_basis], 0.0, index_threshold, proportion_threshold,
                             svd=F.svd_eq if len(in_basis) == p else None)
-    props = []
-    for row in table.proportions:
-        share = dict.fromkeys(names, 0.0)
-        share.update({names[j]: float(v) for j, v in zip(in_basis, row, strict=True)})
-        props.append(share)
+    shares = np.zeros((len(in_basis), p))
+    shares[:, in_basis] = table.proportions
+    props = [dict(zip(names, row, strict=True)) for row in shares.tolist()]
     indices: list[float | None] = [finite_or_none(x) for x in table.indices]
     exact_rows = [False] * len(in_basis)
     near = [

@@ -155,6 +155,13 @@ class Factorization:
         return _svd(self.R_x)
 
     @cached_property
+    def singular_values_raw(self) -> np.ndarray:
+        """(p,) singular values of the raw X (descending), without vectors: its condition
+        number needs no more."""
+        R = self.R_xy_raw[: self.p, : self.p]
+        return np.linalg.svd(R, compute_uv=False) if R.size else np.zeros(0)
+
+    @cached_property
     def svd_raw(self) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
         """(U, d, Vt) of the raw factor of X: its condition number and the minimum-norm
         solution in raw units come from this one SVD."""
@@ -187,6 +194,8 @@ class Factorization:
         columns); at most sqrt(p+1)·max(n, p)·eps·10 means it is in the span (the rank
         tolerance's rule with a safety factor).
         """
+        if self.constant_columns:  # an explicit constant column: in the span by definition
+            return True
         A = self.T_eq[:, 1 : self.p + 1]
         u = self.T_eq[:, 0]
         cut = max(self.n, self.p) * EPS
