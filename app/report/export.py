@@ -38,10 +38,19 @@ def recipe_script(recipe: Recipe, source_path: str, table: Table) -> str:
     return recipe_to_python(recipe, source_path, table)
 
 
+#: A field separator of a common locale (comma, semicolon, tab), with the spaces or quotes a
+#: spreadsheet may skip, right before a formula character: where a spreadsheet of another
+#: locale splits the cell, the piece after it would start a formula.
+AFTER_SEPARATOR = re.compile(r"([,;\t][ \"]*)(?=[=+\-@\t\r])")
+
+
 def neutralize(text: str) -> str:
-    """A text cell a spreadsheet will show as text: one that starts like a formula gets a
-    leading single quote (OWASP's advice). Only text goes through here: numbers are
-    written as numbers, so a negative value stays a usable number."""
+    """A text cell a spreadsheet will show as text (OWASP's advice): one that starts like a
+    formula gets a leading single quote, and so does every piece that would start one after
+    a comma, semicolon or tab, should a spreadsheet of another locale split the cell there.
+    Only text goes through here: numbers are written as numbers, so a negative value stays a
+    usable number."""
+    text = AFTER_SEPARATOR.sub(r"\1'", text)
     return "'" + text if text.startswith(FORMULA_START) else text
 
 
@@ -56,7 +65,9 @@ def design_csv_chunks(design: Design) -> Iterator[str]:
     only text), then X with the response y as the last column when there is one."""
     names = list(design.columns) + ([design.response or "y"] if design.y is not None else [])
     buf = io.StringIO()
-    csv.writer(buf).writerow([neutralize(n) for n in names])
+    # Every header cell quoted: a separator inside a name stays inside its cell whichever
+    # separator the spreadsheet splits on (comma, semicolon or tab).
+    csv.writer(buf, quoting=csv.QUOTE_ALL).writerow([neutralize(n) for n in names])
     yield buf.getvalue()
     X, y = design.X, design.y
     for start in range(0, X.shape[0], CSV_ROWS):

@@ -5,6 +5,7 @@ Knows tables and pragmas only; what a session means lives in the store module.
 
 from __future__ import annotations
 
+import os
 import sqlite3
 from collections.abc import Iterator
 from contextlib import contextmanager
@@ -83,6 +84,23 @@ CREATE TABLE IF NOT EXISTS pins (
 """
 
 
+def _owner_only(path: Path) -> None:
+    """Make the database file 0600 before SQLite opens it: SQLite gives its -wal and -shm
+    files the database file's permissions, so all three stay readable by the owner only,
+    whatever the umask or the folder's mode (titles, changes and pins are private)."""
+    try:
+        fd = os.open(path, os.O_CREAT | os.O_RDWR, 0o600)
+        os.close(fd)
+        os.chmod(path, 0o600)
+        for extra in ("-wal", "-shm"):
+            side = path.with_name(path.name + extra)
+            if side.exists():
+                os.chmod(side, 0o600)
+    except OSError as e:
+        raise InputError(f"the session database cannot be opened ({e.strerror})", str(path),
+                         "Check the data folder's permissions, or choose another") from e
+
+
 def connect(path: Path) -> sqlite3.Connection:
     """A connection in autocommit mode (transactions are begun explicitly below).
 
@@ -91,6 +109,7 @@ def connect(path: Path) -> sqlite3.Connection:
     OS crash, not only a crash of rankscope (NORMAL would only promise the latter; the cost,
     one fsync per change, is nothing at the pace people edit).
     """
+    _owner_only(path)
     con = sqlite3.connect(path, timeout=BUSY_SECONDS, isolation_level=None,
                           check_same_thread=False)
     try:

@@ -25,6 +25,10 @@ TEMP_MARK = ".incoming-"
 TRASH_MARK = ".outgoing-"
 
 
+#: Mode of every file in the data folder, whatever the folder's own mode or the umask.
+OWNER_ONLY = 0o600
+
+
 def table_key(data: bytes, sheet: str | int | None, kinds: dict[str, str] | None
               ) -> tuple[str, str]:
     """(SHA-256 of the bytes, file key). The key is the hash itself for a plain read; a
@@ -63,6 +67,7 @@ def write_table(path: Path, table: Table) -> None:
     tmp = path.with_name(f"{TEMP_MARK}{secrets.token_hex(6)}{SUFFIX}")
     try:
         pq.write_table(pa.Table.from_pandas(table.frame, preserve_index=True), tmp)
+        os.chmod(tmp, OWNER_ONLY)  # people's tables: readable by their owner only
         with open(tmp, "rb") as f:
             os.fsync(f.fileno())
         os.replace(tmp, path)

@@ -172,3 +172,16 @@ def test_download_names() -> None:
     assert download_name("Cold storage: May/June", ".html") == "Cold_storage_May_June.html"
     assert download_name("../../etc/passwd", ".csv") == "etc_passwd.csv"
     assert download_name("///", ".json") == "rankscope.json"
+
+
+def test_design_csv_is_safe_under_every_common_separator() -> None:
+    names = ["(intercept)", "a;=1+1", "b\t@SUM(A1)", "c,-2", "plain;name"]
+    X = np.array([[1.0, 2.0, 3.0, 4.0, 5.0]])
+    text = design_csv(Design(X=X, columns=names, rows_total=1, rows_used=1))
+    # Reference: Python's csv module reading the file as a spreadsheet of each locale would
+    # (comma, semicolon, tab): no header cell starts like a formula (OWASP's list), and
+    # names keep their separators inside one quoted cell.
+    for sep in (",", ";", "\t"):
+        header = next(csv.reader(io.StringIO(text), delimiter=sep))
+        assert not any(c.lstrip().startswith(tuple(OWASP_STARTS)) for c in header), (sep, header)
+    assert next(csv.reader(io.StringIO(text)))[4] == "plain;name"
