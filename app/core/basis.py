@@ -15,7 +15,7 @@ import numpy as np
 class Basis:
     """Outcome of the basis choice on a (m, p) factor A (columns of unit length).
 
-    basis: column indices kept, in the order they were accepted.
+    basis: column indices kept, in QR order (constant columns first).
     dependent: column indices deferred (their remaining length fell to tol or below).
     R11: (k, k) upper triangular factor of A[:, basis].
     R12: (k, d) coordinates of the dependent columns on the basis directions.

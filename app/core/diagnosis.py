@@ -312,7 +312,7 @@ def diagnose_factor(
 
     fit = None
     if F.has_response:
-        fit = fit_least_squares(F, basis, rels, rank).to_dict()
+        fit = fit_least_squares(F, basis, rels).to_dict()
 
     ridge = None
     if F.has_response and (ridge_penalty is not None or ridge_grid is not None):

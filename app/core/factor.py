@@ -162,12 +162,6 @@ class Factorization:
         return np.linalg.svd(R, compute_uv=False) if R.size else np.zeros(0)
 
     @cached_property
-    def svd_raw(self) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-        """(U, d, Vt) of the raw factor of X: its condition number and the minimum-norm
-        solution in raw units come from this one SVD."""
-        return _svd(self.R_xy_raw[: self.p, : self.p])
-
-    @cached_property
     def means(self) -> np.ndarray:
         """(p+1,) weighted column means of X and y (raw units).
 

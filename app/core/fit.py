@@ -145,7 +145,7 @@ def null_matrix(names: list[str], relations: list[Relation]) -> np.ndarray:
     return W
 
 
-def fit_least_squares(F: Factorization, basis: Basis, relations: list[Relation], rank: int) -> Fit:
+def fit_least_squares(F: Factorization, basis: Basis, relations: list[Relation]) -> Fit:
     """Coefficients, standard errors, t and p values, R², F, from the basis factor.
 
     basis: chosen on the unit-length factor with y's coordinates carried along (qty).

@@ -64,37 +64,35 @@ def dependent_columns(null: np.ndarray, order: list[int], floor: float = PIVOT_F
     p, k = null.shape
     if k == 0:
         return []
-    rows = null.copy()
-    top = float(np.max(np.linalg.norm(rows, axis=1))) or 1.0
+    top = float(np.max(np.linalg.norm(null, axis=1))) or 1.0
     chosen: list[int] = []
     directions: list[np.ndarray] = []
-    for j in reversed(order):
-        v = rows[j].copy()
+
+    def left(j: int) -> np.ndarray:
+        """Row j of the null-space basis beyond the rows already chosen."""
+        v = null[j].copy()
         for q in directions:
             v -= (q @ v) * q
-        length = float(np.linalg.norm(v))
-        if length > floor * top:
-            chosen.append(j)
-            directions.append(v / length)
+        return v
+
+    def take(j: int, v: np.ndarray) -> None:
+        chosen.append(j)
+        directions.append(v / max(float(np.linalg.norm(v)), 1e-300))
+
+    for j in reversed(order):
+        v = left(j)
+        if float(np.linalg.norm(v)) > floor * top:
+            take(j, v)
             if len(chosen) == k:
                 return chosen
     # Fewer than k rows stood out (only when the null space is itself noise): take the
     # longest remaining rows so that exactly k columns are deferred.
-    rest = [j for j in reversed(order) if j not in chosen]
-    while len(chosen) < k and rest:
-        lens = []
-        for j in rest:
-            v = rows[j].copy()
-            for q in directions:
-                v -= (q @ v) * q
-            lens.append(float(np.linalg.norm(v)))
-        i = int(np.argmax(lens))
-        j = rest.pop(i)
-        v = rows[j].copy()
-        for q in directions:
-            v -= (q @ v) * q
-        chosen.append(j)
-        directions.append(v / max(float(np.linalg.norm(v)), 1e-300))
+    while len(chosen) < k:
+        rest = [j for j in reversed(order) if j not in chosen]
+        if not rest:
+            break
+        j = max(rest, key=lambda i: float(np.linalg.norm(left(i))))
+        take(j, left(j))
     return chosen
 
 
