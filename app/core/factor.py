@@ -198,6 +198,21 @@ class Factorization:
         return bool(left <= np.sqrt(self.p + 1) * max(self.n, self.p) * EPS * 10)
 
 
+def check_values(X: np.ndarray, y: np.ndarray | None, columns: list[str]) -> None:
+    """Raise ValueError unless X and y are finite and every column's magnitude lies in
+    [SMALLEST, LARGEST] (or is zero)."""
+    if not (np.all(np.isfinite(X)) and (y is None or np.all(np.isfinite(y)))):
+        raise ValueError("X and y must be finite")
+    # Largest magnitude per column without an |X| copy of the whole matrix.
+    top = np.maximum(X.max(axis=0), -X.min(axis=0)) if X.shape[0] else np.zeros(X.shape[1])
+    for j in range(X.shape[1]):
+        if 0.0 < top[j] < SMALLEST or top[j] > LARGEST:
+            raise ValueError(
+                f"column {columns[j]!r} has largest magnitude {top[j]:g}, outside "
+                f"[{SMALLEST:g}, {LARGEST:g}] where float64 keeps its digits through the "
+                "analysis; rescale it (multiply by a power of ten) first")
+
+
 def factorize(
     X: np.ndarray,
     columns: list[str],
@@ -234,16 +249,7 @@ def factorize(
             raise ValueError("weights must be finite, non-negative, one per row")
         sw = np.sqrt(w)
         n_pos, sum_w = int(np.count_nonzero(w)), float(w.sum())
-    if not (np.all(np.isfinite(X)) and np.all(np.isfinite(yv))):
-        raise ValueError("X and y must be finite")
-    # Largest magnitude per column without an |X| copy of the whole matrix.
-    top = np.maximum(X.max(axis=0), -X.min(axis=0)) if n else np.zeros(p)
-    for j in range(p):
-        if 0.0 < top[j] < SMALLEST or top[j] > LARGEST:
-            raise ValueError(
-                f"column {columns[j]!r} has largest magnitude {top[j]:g}, outside "
-                f"[{SMALLEST:g}, {LARGEST:g}] where float64 keeps its digits through the "
-                "analysis; rescale it (multiply by a power of ten) first")
+    check_values(X, yv, columns)
     head = min(n, block_rows(p + 2))
     shifts = shifts_of(np.column_stack([np.zeros(head), X[:head], yv[:head]]))
     T = unshift(reduce_blocks(_blocks(X, yv, sw, shifts), p + 2), shifts)

@@ -131,7 +131,7 @@ def analyse(table: Table, settings: Settings) -> Analysis:
         rows_total=design.rows_total,
         rows_used=design.rows_used,
         notes=list(design.notes),
-        diagnosis=diag.to_dict(),
+        diagnosis=diag.plain(),
         working=_working(trace.working.cols),
         seconds=time.perf_counter() - start,
     )
@@ -150,7 +150,7 @@ def on_source(source: Source, settings: Settings) -> Analysis:
     return Analysis(
         settings=settings, columns=list(lay.columns), response=lay.response,
         groups=lay.groups, rows_total=got.rows_total, rows_used=got.rows_used,
-        notes=list(got.notes), diagnosis=diag.to_dict(), working=working,
+        notes=list(got.notes), diagnosis=diag.plain(), working=working,
         seconds=time.perf_counter() - started, path="factor",
     )
 
