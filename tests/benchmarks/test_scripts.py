@@ -30,3 +30,15 @@ def test_memory_benchmark_smoke(tmp_path: Path) -> None:
 def test_read_benchmark_smoke() -> None:
     out = _run("rankscope.benchmarks.read", "--mb", "0.5", "--repeat", "1")
     assert "read_table" in out and "pandas.read_csv" in out and "ratio pandas/read_table" in out
+
+
+def test_refit_benchmark_smoke() -> None:
+    """Narrow (with at most 10 columns, which once crashed) and wide cases on tiny tables."""
+    out = _run("rankscope.benchmarks.refit", "--rows", "200", "--cols", "4", "--repeat", "1",
+               "--wide", "24", "--wide-rows", "200")
+    for line in ("generated 200 × 4 (Parquet)", "linear change + refit (factor path)",
+                 "nonlinear change + refit (rebuild path)", "wide numbers 200 × 24",
+                 "wide category 200 × 24", "first analysis in the web app",
+                 "slowest linear change"):
+        assert line in out, line
+    assert "ratio" in out and "linear: factor" in out
