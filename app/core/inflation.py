@@ -6,7 +6,7 @@ No regression per column: every number is read off the inverse of a triangular f
 from __future__ import annotations
 
 import numpy as np
-from scipy.linalg import solve_triangular
+from scipy.linalg import lapack, solve_triangular
 
 
 def vif_from_factor(Z: np.ndarray) -> np.ndarray:
@@ -21,8 +21,16 @@ def vif_from_factor(Z: np.ndarray) -> np.ndarray:
     if k == 0:
         return np.zeros(0)
     R = np.linalg.qr(Z, mode="r")[:k]
-    Rinv = solve_triangular(R, np.eye(k))
-    return (Rinv**2).sum(axis=1)
+    return (triangular_inverse(R) ** 2).sum(axis=1)
+
+
+def triangular_inverse(R: np.ndarray) -> np.ndarray:
+    """R⁻¹ of a nonsingular upper triangular R by LAPACK dtrtri (in place on a copy, k³/3
+    flops: a third of solving against the identity, Higham 2nd ed. §14.2)."""
+    inv, info = lapack.dtrtri(np.asfortranarray(R), lower=0)
+    if info != 0:  # an exactly zero pivot: the solve says so as before
+        return solve_triangular(R, np.eye(R.shape[0]))
+    return np.triu(inv)
 
 
 def log_det_gram(Z: np.ndarray) -> float:

@@ -160,3 +160,43 @@ def test_spearman_on_request_is_the_rows(client, sid, table) -> None:
     assert z[i][j] == pytest.approx(spearmanr(table["hours"], table["temp_c"])[0], abs=1e-9)
     # the fetched matrix stays with the analysis
     assert client.get(f"/api/s/{sid}/figures").json()["heatmap-spearman"] is not None
+
+
+def wide_table(n: int = 700, levels: int = 310, seed: int = 11) -> dict:
+    """A category with `levels` levels (a design wider than the optimal-order limit), three
+    whole-number columns with a planted exact relation w3 = w1 + 2·w2, a near copy of w1
+    and a response."""
+    rng = np.random.default_rng(seed)
+    w1 = rng.integers(-50, 50, n)
+    w2 = rng.integers(-50, 50, n)
+    store = [f"s{i:03d}" for i in np.r_[np.arange(levels), rng.integers(0, levels, n - levels)]]
+    near = np.round(w1 + rng.normal(0, 0.01, n), 3)
+    load = np.round(2.0 * w1 - w2 + rng.normal(0, 1, n), 3)
+    return {"w1": w1, "w2": w2, "w3": w1 + 2 * w2, "near": near, "store": store, "load": load}
+
+
+def test_wide_design_changes_equal_the_replay(client, monkeypatch) -> None:
+    """A design of 316 columns: every change on the factor gives the from-scratch analysis,
+    the clustered order included, and Spearman waits for the page to ask."""
+    from rankscope.core.correlation import OPTIMAL_ORDER_LIMIT
+    from rankscope.web import refit
+
+    monkeypatch.setattr(refit, "SPEARMAN_CELLS", 1_000)  # this table counts as wide
+    cols = wide_table()
+    sid = upload(client, cols)
+    table = client.app.state.analyst.session(sid).table
+    changes = [{"step": "response", "column": "load"}, {"step": "drop", "column": "near"},
+               {"step": "drop", "column": "w3"}, {"step": "restore", "column": "near"},
+               {"step": "center", "column": "w2"}, {"step": "restore", "column": "w3"}]
+    paths = []
+    for payload in changes:
+        assert step(client, sid, payload).status_code == 200
+        got = check(client, sid, table)
+        paths.append(got.path)
+        assert len(got.diagnosis["correlations"]["columns"]) > OPTIMAL_ORDER_LIMIT
+        assert got.diagnosis["correlations"]["spearman"] is None
+    assert paths[1:] == ["factor"] * (len(changes) - 1)
+    # the planted relation, found on the factor path as on the rows
+    deps = got.diagnosis["dependencies"]
+    assert len(deps) == 1
+    assert {"w1", "w2 (centered)", "w3"} <= {deps[0]["column"], *deps[0]["combination"]}

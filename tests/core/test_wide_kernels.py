@@ -1,0 +1,93 @@
+"""The kernels chosen for wide designs agree with the full computations they replace.
+
+References: VIF = diag of the inverse correlation matrix (numpy.linalg.inv, a textbook
+identity: Belsley, Kuh & Welsch 1980, §2.1), scipy.cluster.hierarchy for the display order,
+numpy.linalg.inv for the triangular inverse. Data are random with planted structure.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+from hypothesis import given, settings
+from hypothesis import strategies as st
+from scipy.cluster.hierarchy import leaves_list, linkage, optimal_leaf_ordering
+from scipy.spatial.distance import squareform
+
+from rankscope.core import diagnose
+from rankscope.core.correlation import OPTIMAL_ORDER_LIMIT, cluster_order
+from rankscope.core.inflation import triangular_inverse, vif_from_factor
+
+K = 7
+
+
+def planted(seed: int, n: int = 200, k: int = K) -> np.ndarray:
+    """k random columns, column 3 nearly column 0 + column 1 (VIFs in the thousands)."""
+    rng = np.random.default_rng(seed)
+    X = rng.normal(size=(n, k)) * rng.uniform(0.1, 50, k) + rng.uniform(-100, 100, k)
+    X[:, 3] = X[:, 0] + X[:, 1] + 1e-2 * rng.normal(size=n) * np.std(X[:, 0])
+    return X
+
+
+@settings(deadline=None, max_examples=40)
+@given(st.integers(0, 10_000), st.permutations(range(K)))
+def test_vif_from_the_triangular_inverse_is_the_inverse_correlation_diagonal(
+        seed: int, order: list[int]) -> None:
+    X = planted(seed)[:, order]
+    Z = X - X.mean(axis=0)
+    Z /= np.linalg.norm(Z, axis=0)
+    # reference: VIF_j = [C⁻¹]_jj, C the correlation matrix (numpy.linalg.inv of corrcoef),
+    # itself accurate to about κ(C)·eps relative (Higham 2nd ed. §14.1)
+    C = np.corrcoef(X, rowvar=False)
+    ref = np.diag(np.linalg.inv(C))
+    rtol = 1e-10 + 50 * np.finfo(float).eps * np.linalg.cond(C)
+    assert np.allclose(vif_from_factor(Z), ref, rtol=rtol)
+    d = diagnose(np.column_stack([np.ones(len(X)), X]), ["(intercept)"] + [f"x{j}" for j in order])
+    assert np.allclose([d.vif[f"x{j}"] for j in order], ref, rtol=rtol)
+
+
+@given(st.integers(0, 10_000))
+def test_triangular_inverse_is_the_inverse(seed: int) -> None:
+    rng = np.random.default_rng(seed)
+    R = np.triu(rng.normal(size=(30, 30))) + 4 * np.eye(30)
+    # reference: numpy.linalg.inv
+    assert np.allclose(triangular_inverse(R), np.linalg.inv(R), rtol=1e-10, atol=1e-12)
+
+
+def _blocks(k: int, seed: int) -> tuple[np.ndarray, np.ndarray]:
+    """Correlations of k columns in 4 planted groups (each column its group's factor plus
+    noise), columns shuffled, and each column's group."""
+    rng = np.random.default_rng(seed)
+    F = rng.normal(size=(400, 4))
+    group = rng.permutation(np.arange(k) % 4)
+    X = F[:, group] + 0.7 * rng.normal(size=(400, k))
+    return np.corrcoef(X, rowvar=False), group
+
+
+def _scipy_order(C: np.ndarray, optimal: bool) -> list[int]:
+    D = 1.0 - np.abs(np.round(C, 10))
+    D = (D + D.T) / 2
+    np.fill_diagonal(D, 0.0)
+    cond = squareform(np.clip(D, 0.0, None), checks=False)
+    Z = linkage(cond, method="average")
+    return leaves_list(optimal_leaf_ordering(Z, cond) if optimal else Z).tolist()
+
+
+def test_order_is_scipy_average_linkage_optimal_up_to_the_limit_plain_above() -> None:
+    small, _ = _blocks(40, 1)
+    # reference: scipy.cluster.hierarchy (average linkage, optimal leaf ordering)
+    assert cluster_order(small) == _scipy_order(small, optimal=True)
+    wide, group = _blocks(OPTIMAL_ORDER_LIMIT + 20, 2)
+    order = cluster_order(wide)
+    assert order == _scipy_order(wide, optimal=False)
+    assert sorted(order) == list(range(OPTIMAL_ORDER_LIMIT + 20))
+    # each planted group stands in one run: a tree's clusters are contiguous in its leaves
+    runs = [g for i, g in enumerate(group[order]) if i == 0 or g != group[order][i - 1]]
+    assert sorted(runs) == [0, 1, 2, 3]
+
+
+def test_plain_dict_is_to_dict() -> None:
+    X = planted(3)
+    d = diagnose(np.column_stack([np.ones(len(X)), X]), ["(intercept)"] + [f"x{j}" for j in
+                                                                          range(K)])
+    assert d.plain() == d.to_dict()
+    assert list(d.plain()) == list(d.to_dict())
