@@ -91,3 +91,24 @@ def test_plain_dict_is_to_dict() -> None:
                                                                           range(K)])
     assert d.plain() == d.to_dict()
     assert list(d.plain()) == list(d.to_dict())
+
+
+@settings(deadline=None, max_examples=60)
+@given(st.integers(0, 10_000), st.lists(st.integers(0, 9), min_size=1, max_size=14))
+def test_retriangulating_the_trailing_block_is_the_full_qr(seed: int, cols: list[int]) -> None:
+    """Columns of a triangular factor shown in any order, some left out or repeated."""
+    from rankscope.core.reduce import square_factor, upper_sign_fixed
+    from rankscope.core.workspace import _retriangulate
+
+    rng = np.random.default_rng(seed)
+    T = upper_sign_fixed(np.linalg.qr(planted(seed, n=60, k=10), mode="r"))
+    T[:, rng.integers(0, 10)] *= 0.0  # a column that is all zeros (a constant's centred part)
+    M = T[:, cols]
+    got = _retriangulate(M)
+    # reference: numpy.linalg.qr of the whole matrix (the same R up to rounding)
+    ref = upper_sign_fixed(square_factor(np.linalg.qr(M, mode="r"), len(cols)))
+    scale = np.where(np.linalg.norm(M, axis=0) > 0, np.linalg.norm(M, axis=0), 1.0)
+    assert np.allclose(got.T @ got / np.outer(scale, scale), M.T @ M / np.outer(scale, scale),
+                       atol=1e-12)
+    assert np.allclose(np.abs(got), np.abs(ref), atol=1e-10 * float(np.max(np.abs(M))))
+    assert np.allclose(got, np.triu(got))
