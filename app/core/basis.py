@@ -10,6 +10,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from rankscope.core.structured import r_factor
+
 
 @dataclass(frozen=True)
 class Basis:
@@ -48,7 +50,7 @@ def basis_factor(
     M = A[:, cols] if rhs is None else np.column_stack([A[:, cols], rhs])
     if M.shape[1] == 0:
         return Basis([], [], np.zeros((0, 0)), np.zeros((0, 0)), np.zeros(0), np.zeros(m))
-    R = np.linalg.qr(M, mode="r")
+    R = r_factor(M)  # A is triangular: the basis columns in order leave little to reduce
     full = np.zeros((max(m, M.shape[1]), M.shape[1]))
     full[: R.shape[0]] = R
     signs = np.where(np.diag(full[:k, :k]) < 0, -1.0, 1.0)

@@ -5,6 +5,8 @@ Plain, JSON-serializable fields only; the CLI, web pages and reports all read th
 
 from __future__ import annotations
 
+import threading
+from concurrent.futures import Future, ThreadPoolExecutor
 from dataclasses import dataclass, field, fields
 
 import numpy as np
@@ -151,6 +153,26 @@ def priority_order(columns: list[str], keep: list[str] | None) -> list[int]:
     return first + [j for j in range(len(columns)) if j not in first]
 
 
+#: Columns from which the raw and centred spectra are computed beside the rank decision's
+#: SVD, on a thread of their own: each spectrum costs about (8/3)·p³ flops, a second at
+#: 1,000 columns, and below a few hundred columns a thread costs more than it saves.
+SIDE_SPECTRA_COLUMNS = 400
+
+
+_SIDE: list[ThreadPoolExecutor] = []
+_SIDE_GUARD = threading.Lock()
+
+
+def _side_spectra(F: Factorization, Zc: np.ndarray) -> Future:
+    """The raw and centred singular values, computed on a thread of their own (one pool of
+    two for the process: as many as the analyses that may run at once by default)."""
+    F.R_xy_raw  # noqa: B018 - the shared QR is made here, before two threads could ask for it
+    with _SIDE_GUARD:
+        if not _SIDE:
+            _SIDE.append(ThreadPoolExecutor(2, thread_name_prefix="rankscope-spectra"))
+    return _SIDE[0].submit(lambda: (F.singular_values_raw, cnd.singular_values(Zc)))
+
+
 # Everything in diagnose_factor works on (p, p) matrices: BLAS threads only add contention
 # there (measured: a 100×100 SVD 50× slower with 2 threads on a busy 2-core machine).
 @threadpool_limits.wrap(limits=1, user_api="blas")
@@ -183,10 +205,17 @@ def diagnose_factor(
     p = F.p
     notes = list(F.notes)
     R_eq = F.R_x
+    # The three spectra (unit-length, raw, centred) share nothing but the factor: a wide
+    # design takes the raw and centred ones on a second core while the first computes the
+    # SVD the rank decision needs. Each stays one single-threaded LAPACK call, as below.
+    cen = F.centered[:, :p]
+    consts = F.constant_columns
+    nonconst = [j for j in range(p) if j not in consts and j not in F.zero_columns]
+    Zc = cnd.unit_columns(cen, nonconst)
+    spectra = _side_spectra(F, Zc) if p >= SIDE_SPECTRA_COLUMNS else None
     sv_eq = F.svd_eq[1]
     tol_used = float(tol) if tol is not None else default_tolerance(
         sv_eq[0] if sv_eq.size else 0.0, F.n, p)
-    consts = F.constant_columns
     decision = decide(R_eq, F.svd_eq, priority_order(names, keep), tol_used, consts,
                       rhs=F.R_xy[:p, p])
     basis = decision.basis
@@ -207,11 +236,10 @@ def diagnose_factor(
         involved.update(r.combination)
 
     # Condition numbers of raw, unit-length, and centered-and-scaled X.
-    sv_raw = F.singular_values_raw
-    cen = F.centered[:, :p]
-    nonconst = [j for j in range(p) if j not in consts and j not in F.zero_columns]
-    Zc = cnd.unit_columns(cen, nonconst)
-    sv_c = cnd.singular_values(Zc)
+    if spectra is None:
+        sv_raw, sv_c = F.singular_values_raw, cnd.singular_values(Zc)
+    else:
+        sv_raw, sv_c = spectra.result()
     # Centring removes the constant's direction from the span: the centred non-constant
     # columns have rank rank(X) − 1 when the constant is in the span (explicitly or not),
     # rank(X) otherwise; below their number they are deficient (the one rank decision).

@@ -11,6 +11,7 @@ from functools import cached_property
 import numpy as np
 
 from rankscope.core.reduce import block_rows, reduce_blocks, shifts_of, unshift
+from rankscope.core.structured import r_factor
 
 EPS = float(np.finfo(np.float64).eps)
 #: Column magnitudes the core accepts: below SMALLEST float64 loses digits towards the
@@ -131,10 +132,11 @@ class Factorization:
         """
         first = self.constant_columns
         perm = first + [j for j in range(self.p) if j not in first] + [self.p]
-        R = np.linalg.qr(self.T_eq[:, 1:][:, perm], mode="r")
-        k = self.p + 1
-        out = np.zeros((k, k))
-        out[: R.shape[0], perm] = R[:k]
+        # T_eq without its constant column is upper Hessenberg when the constant columns
+        # lead X: r_factor then reduces one entry per column.
+        R = r_factor(self.T_eq[:, 1:][:, perm])
+        out = np.zeros_like(R)
+        out[:, perm] = R
         return out
 
     @cached_property

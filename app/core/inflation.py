@@ -8,6 +8,8 @@ from __future__ import annotations
 import numpy as np
 from scipy.linalg import lapack, solve_triangular
 
+from rankscope.core.structured import r_factor
+
 
 def vif_from_factor(Z: np.ndarray) -> np.ndarray:
     """VIF_j = [(ZᵀZ)⁻¹]_jj for unit-length columns Z, i.e. 1/(1 − R_j²).
@@ -20,7 +22,7 @@ def vif_from_factor(Z: np.ndarray) -> np.ndarray:
     k = Z.shape[1]
     if k == 0:
         return np.zeros(0)
-    R = np.linalg.qr(Z, mode="r")[:k]
+    R = r_factor(Z)  # columns of a triangular factor: little is left to reduce
     return (triangular_inverse(R) ** 2).sum(axis=1)
 
 

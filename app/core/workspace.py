@@ -11,35 +11,20 @@ from dataclasses import dataclass, replace
 import numpy as np
 
 from rankscope.core.factor import Factorization
-from rankscope.core.reduce import square_factor, upper_sign_fixed
+from rankscope.core.reduce import upper_sign_fixed
+from rankscope.core.structured import r_factor
 
 #: Name of the constant in combinations passed to Workspace.add.
 CONSTANT = "(intercept)"
 
 
-def triangular_prefix(M: np.ndarray) -> int:
-    """How many leading columns of M are already upper triangular (zero below the diagonal)."""
-    nz = M != 0
-    last = np.where(nz.any(axis=0), M.shape[0] - 1 - np.argmax(nz[::-1], axis=0), -1)
-    bad = np.flatnonzero(last > np.arange(M.shape[1]))
-    return int(bad[0]) if bad.size else M.shape[1]
-
-
 def _retriangulate(M: np.ndarray) -> np.ndarray:
     """Triangular factor of a small (m, k) matrix: RᵀR = MᵀM, non-negative diagonal.
 
-    Householder QR leaves a column that is already triangular alone (its reflector is the
-    identity), so only the block after the triangular prefix is reduced: an edit that adds
-    a column at the end, or shows the columns of T with some left out, costs the trailing
-    block, not (k+2)³ (Golub & Van Loan 4th ed. §5.2, QR of a partitioned matrix).
+    An edit leaves most of M triangular already (a column added at the end, held columns
+    shown with some left out or moved), so only what is not is reduced (structured.r_factor).
     """
-    k = M.shape[1]
-    m = min(triangular_prefix(M), k, M.shape[0])
-    out = np.zeros((k, k))
-    out[:m] = M[:m]
-    if m < k and m < M.shape[0]:
-        out[m:, m:] = square_factor(np.linalg.qr(M[m:, m:], mode="r"), k - m)
-    return upper_sign_fixed(out)
+    return upper_sign_fixed(r_factor(M))
 
 
 @dataclass(frozen=True)

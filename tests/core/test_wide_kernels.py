@@ -112,3 +112,43 @@ def test_retriangulating_the_trailing_block_is_the_full_qr(seed: int, cols: list
                        atol=1e-12)
     assert np.allclose(np.abs(got), np.abs(ref), atol=1e-10 * float(np.max(np.abs(M))))
     assert np.allclose(got, np.triu(got))
+
+
+@settings(deadline=None, max_examples=60)
+@given(st.integers(0, 10_000), st.permutations(range(9)), st.integers(0, 9))
+def test_structured_r_factor_is_lapacks_in_every_column_order(seed: int, order: list[int],
+                                                              cut: int) -> None:
+    """Forced onto the column-by-column path: a triangular factor's columns in any order
+    with some left out (cut), a dense block and an upper Hessenberg matrix."""
+    from rankscope.core import structured
+    from rankscope.core.reduce import square_factor
+
+    rng = np.random.default_rng(seed)
+    T = np.linalg.qr(planted(seed, n=40, k=9), mode="r")
+    shown = order[: max(cut, 1)] + sorted(order[max(cut, 1):])
+    cases = [T[:, shown], T[:, 1:], rng.normal(size=(12, 7)), rng.normal(size=(5, 8))]
+    for M in cases:
+        # reference: numpy.linalg.qr (LAPACK dgeqrf), the same R up to rounding
+        ref = square_factor(np.linalg.qr(M, mode="r"), M.shape[1])
+        old = structured.STRUCTURED_MIN_COLUMNS, structured.STRUCTURED_SHARE
+        structured.STRUCTURED_MIN_COLUMNS, structured.STRUCTURED_SHARE = 0, np.inf
+        try:
+            got = structured.r_factor(M)
+        finally:
+            structured.STRUCTURED_MIN_COLUMNS, structured.STRUCTURED_SHARE = old
+        assert np.allclose(got, ref, rtol=0, atol=1e-12 * float(np.max(np.abs(M)))), M.shape
+
+
+def test_structured_r_factor_on_a_wide_factor_with_columns_left_out() -> None:
+    from rankscope.core.reduce import square_factor
+    from rankscope.core.structured import STRUCTURED_MIN_COLUMNS, r_factor
+
+    k = STRUCTURED_MIN_COLUMNS + 30
+    rng = np.random.default_rng(5)
+    T = np.linalg.qr(rng.normal(size=(3 * k, k)), mode="r")
+    for cols in ([0, *range(2, k)], [*range(7), *range(9, k), 7], [*range(k // 2), *range(
+            k // 2 + 1, k)]):
+        M = T[:, cols]
+        # reference: numpy.linalg.qr
+        ref = square_factor(np.linalg.qr(M, mode="r"), len(cols))
+        assert np.allclose(r_factor(M), ref, rtol=0, atol=1e-12 * float(np.max(np.abs(M))))
