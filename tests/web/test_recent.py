@@ -6,7 +6,7 @@ Reference: the weights summed by hand over the entries left.
 
 from __future__ import annotations
 
-from rankscope.web.recent import Recent, cells
+from rankscope.web.recent import CELL_CEILING, Recent, cells
 
 
 def test_small_entries_stay_many_and_large_ones_keep_the_floor() -> None:
@@ -37,3 +37,17 @@ def test_replacing_popping_and_clearing_keep_the_total() -> None:
 def test_weight_of_a_design_is_its_factor() -> None:
     # The factor of [1, X, y] for p columns is (p + 2) × (p + 2).
     assert cells(15) == 17 * 17
+
+
+def test_very_large_entries_give_way_below_the_floor() -> None:
+    """Analyses of wide designs: the floor of twelve gives way above the ceiling, down to
+    the current entry and the one before it."""
+    cache: Recent[str, int] = Recent(lambda w: w, floor=12, budget=100, ceiling=1000)
+    for k in range(5):
+        cache[f"w{k}"] = 400  # 2,000 > ceiling after the third
+    assert list(cache) == ["w3", "w4"] and cache.total == 800
+    cache["w5"] = 5000  # heavier than the ceiling alone: still two kept
+    assert list(cache) == ["w4", "w5"] and cache.total == 5400
+    # the default ceiling holds two analyses of 2,000 columns, eight of 1,000
+    assert 2 * cells(2000) <= CELL_CEILING < 3 * cells(2000)
+    assert 8 * cells(1000) <= CELL_CEILING < 9 * cells(1000)
