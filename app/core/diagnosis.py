@@ -303,9 +303,10 @@ def diagnose_factor(
     Zs = cnd.unit_columns(cen if vif_centered else R_eq, space_cols)
     vals = vif_from_factor(Zs) if space_cols else np.zeros(0)
     by_col = {names[j]: float(vals[i]) for i, j in enumerate(space_cols)}
+    at = {c: j for j, c in enumerate(names)}  # names are unique: list.index is O(p) a call
     vif: dict[str, float | None] = {
         c: None if c in involved else by_col[c]
-        for c in names if (c in involved or c in by_col) and names.index(c) not in explicit[:1]
+        for c in names if (c in involved or c in by_col) and at[c] not in explicit[:1]
     }
     tolerance = {c: (0.0 if v is None else 1.0 / v) for c, v in vif.items()}
     # √VIF: the standard error is that many times what uncorrelated columns would give
@@ -313,15 +314,15 @@ def diagnose_factor(
     se_inflation = {c: (None if v is None else float(np.sqrt(v))) for c, v in vif.items()}
 
     gv: dict[str, dict] = {}
+    in_space = {j: i for i, j in enumerate(space_cols)}
     for gname, gcols in (groups or {}).items():
-        members = [c for c in gcols if c in names]
+        members = [c for c in gcols if c in at]
         if not members:
             continue
-        idx = [space_cols.index(names.index(c)) for c in members
-               if names.index(c) in space_cols]
+        idx = [in_space[at[c]] for c in members if at[c] in in_space]
         bad = any(c in involved for c in members) or not idx
         val = None if bad or not vif_centered else gvif(Zs, idx)
-        dfg = len([c for c in members if names.index(c) not in left_out]) or len(members)
+        dfg = len([c for c in members if at[c] not in left_out]) or len(members)
         gv[gname] = {
             "columns": members,
             "df": dfg,
