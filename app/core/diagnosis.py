@@ -347,7 +347,9 @@ def diagnose_factor(
 
     fit = None
     if F.has_response:
-        fit = fit_least_squares(F, basis, rels).to_dict()
+        # The index table's largest index is σ_max/σ_min of the basis columns: no second SVD.
+        top = float(np.max(table.indices)) if len(table.indices) else None
+        fit = fit_least_squares(F, basis, rels, cond_basis=top).to_dict()
 
     ridge = None
     if F.has_response and (ridge_penalty is not None or ridge_grid is not None):

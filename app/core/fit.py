@@ -145,10 +145,14 @@ def null_matrix(names: list[str], relations: list[Relation]) -> np.ndarray:
     return W
 
 
-def fit_least_squares(F: Factorization, basis: Basis, relations: list[Relation]) -> Fit:
+def fit_least_squares(F: Factorization, basis: Basis, relations: list[Relation],
+                      cond_basis: float | None = None) -> Fit:
     """Coefficients, standard errors, t and p values, R², F, from the basis factor.
 
     basis: chosen on the unit-length factor with y's coordinates carried along (qty).
+    cond_basis: the condition number of the unit-length basis columns when the caller has
+    it (the largest condition index of the index table: the same singular values as R11),
+    else it is computed here, for the choice to refine on the rows.
     Standard errors: s·||row j of R11⁻¹|| / scale_j (Seber & Lee, Linear Regression
     Analysis, 2nd ed., §11.4); s² = RSS/(n − k).
     """
@@ -162,8 +166,9 @@ def fit_least_squares(F: Factorization, basis: Basis, relations: list[Relation])
     rss = float(R[p, p] ** 2 + np.sum(basis.qty[k:] ** 2))
     steps = 0
     if k and F.X is not None and F.y is not None:
-        d = np.linalg.svd(basis.R11, compute_uv=False)
-        cond_basis = float(d[0] / d[-1]) if d[-1] > 0 else np.inf
+        if cond_basis is None:
+            d = np.linalg.svd(basis.R11, compute_uv=False)
+            cond_basis = float(d[0] / d[-1]) if d[-1] > 0 else np.inf
         if F.n * k <= REFINE_CELLS or cond_basis > REFINE_COND:
             b, rss, steps = _refine(F, B, basis.R11, b)
     df_res = F.n - k

@@ -48,8 +48,8 @@ class RankDecision:
     basis: Basis
 
 
-def dependent_columns(null: np.ndarray, order: list[int], floor: float = PIVOT_FLOOR
-                      ) -> list[int]:
+def dependent_columns(null: np.ndarray, order: list[int], floor: float = PIVOT_FLOOR,
+                      first: tuple[int, ...] = ()) -> list[int]:
     """Choose which p − r columns are written through the others, lowest priority first.
 
     null: (p, k) orthonormal null-space basis N. A set D of k columns can be written
@@ -59,7 +59,9 @@ def dependent_columns(null: np.ndarray, order: list[int], floor: float = PIVOT_F
     §5.5.6). Walking the priority order backwards, a column joins D when its row keeps
     more than `floor` (relative to the largest row) after projecting off the rows already
     in D: modified Gram–Schmidt on the rows, so the keep priority is honoured wherever the
-    numbers allow it and never at the price of a singular basis.
+    numbers allow it and never at the price of a singular basis. first: columns that are
+    all zeros, taken before the walk: e_j is then an exact null vector, and the rounding
+    in a near-zero singular value's vectors must not leave one of them in the basis.
     """
     p, k = null.shape
     if k == 0:
@@ -79,7 +81,13 @@ def dependent_columns(null: np.ndarray, order: list[int], floor: float = PIVOT_F
         chosen.append(j)
         directions.append(v / max(float(np.linalg.norm(v)), 1e-300))
 
+    for j in first[:k]:
+        take(j, left(j))
+    if len(chosen) == k:
+        return chosen
     for j in reversed(order):
+        if j in chosen:
+            continue
         v = left(j)
         if float(np.linalg.norm(v)) > floor * top:
             take(j, v)
@@ -114,7 +122,8 @@ def decide(
     p = A.shape[1]
     rank = int(np.sum(d > tol)) if d.size else 0
     null = Vt[rank:].T if p else np.zeros((0, 0))
-    dependent = dependent_columns(null, order)
+    zero = tuple(j for j in order if p and not np.any(A[:, j]))
+    dependent = dependent_columns(null, order, first=zero)
     dep = set(dependent)
     basis = [j for j in order if j not in dep]
     first = [j for j in basis if j in constants]

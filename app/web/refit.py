@@ -11,7 +11,7 @@ from typing import Any
 
 from rankscope.core.correlation import spearman
 from rankscope.core.diagnosis import diagnose_factor, spearman_rows
-from rankscope.core.factor import check_values
+from rankscope.core.factor import check_values, factorize
 from rankscope.design.apply_roles import levels_of
 from rankscope.design.design import Design
 from rankscope.design.recipe import build_design
@@ -95,19 +95,29 @@ def _spearman_note(notes: list[str]) -> str | None:
 SPEARMAN_CELLS = 2_000_000
 
 
+#: Design columns from which the first build diagnoses the engine's factor (the build's one
+#: pass over the rows, re-triangulated for the design) instead of factoring the rows again:
+#: the second pass costs O(n·p²), as much as the first (4 to 8 s at 20,000 × 1,000 on a busy
+#: core). Narrower designs keep the rows' own factor, which a from-scratch analysis uses:
+#: where rounding decides a basis (a 1e-16 remainder), both then decide alike.
+REUSE_FACTOR_COLUMNS = 200
+
+
 def from_rows(table: Table, settings: Settings, engine: EditEngine | None = None,
               design: Design | None = None, started: float | None = None
               ) -> tuple[Analysis, Held]:
     """Build from the rows (or take the build an engine edit just made) and diagnose with
-    the rows, as analyse() does, on the engine's factor (the build's one pass over the
-    rows) with the rows attached for what needs them (relations checked on the rows, the
-    refined fit)."""
+    the rows, as analyse() does; a wide design on the engine's factor with the rows
+    attached for what needs them (relations checked on the rows, the refined fit)."""
     started = time.perf_counter() if started is None else started
     if engine is None or design is None:
         engine, design = EditEngine.build_with_design(table, settings.recipe)
-    # The checks factorize makes on the rows, before a factor built without them is used.
-    check_values(design.X, design.y, design.columns)
-    F = replace(engine.factorization(), X=design.X, y=design.y)
+    if len(design.columns) >= REUSE_FACTOR_COLUMNS:
+        # The checks factorize makes on the rows, before a factor built without them is used.
+        check_values(design.X, design.y, design.columns)
+        F = replace(engine.factorization(), X=design.X, y=design.y)
+    else:
+        F = factorize(design.X, design.columns, design.y)
     diag = diagnose_factor(
         F, response=design.response, groups=design.groups,
         keep=list(settings.keep) or None, ridge_penalty=settings.ridge,

@@ -152,3 +152,21 @@ def test_structured_r_factor_on_a_wide_factor_with_columns_left_out() -> None:
         # reference: numpy.linalg.qr
         ref = square_factor(np.linalg.qr(M, mode="r"), len(cols))
         assert np.allclose(r_factor(M), ref, rtol=0, atol=1e-12 * float(np.max(np.abs(M))))
+
+
+def test_all_zero_columns_are_never_in_the_basis() -> None:
+    """Found by the upload fuzz test: two zero columns, a duplicated indicator and a column
+    with a 3e8 spread on three rows; the rounding of a 1e-9 singular value's vectors once
+    left a zero column in the basis (a singular R11). Reference: a zero column x_j gives the
+    exact null vector e_j (X·e_j = 0), so it is always written through the others."""
+    X = np.array([[1.0, 0.0, 0.0, 1.0, 1.0, 1.0],
+                  [1.0, 0.0, 0.0, 1.0, 0.0, 1.0],
+                  [1.0, 0.0, 0.0, 0.0, 300000123.0, 0.0]])
+    names = ["(intercept)", "z1", "z2", "a[0]", "big", "b[0]"]
+    for order in ([0, 1, 2, 3, 4, 5], [0, 3, 4, 5, 1, 2], [5, 4, 3, 2, 1, 0]):
+        d = diagnose(X[:, order], [names[j] for j in order])
+        # reference: numpy.linalg.matrix_rank of the unit-length columns (zero ones kept)
+        lengths = np.linalg.norm(X, axis=0)
+        assert d.rank == 3 == np.linalg.matrix_rank(X / np.where(lengths > 0, lengths, 1.0))
+        assert {"z1", "z2"} <= {r["column"] for r in d.dependencies}
+        assert "z1" not in d.basis and "z2" not in d.basis
