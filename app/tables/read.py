@@ -56,6 +56,12 @@ def read_table(
         if p.is_dir():
             raise InputError("This is a folder, not a file", where, "Choose a file")
         _check_size(size, max_bytes, where)
+        with p.open("rb") as f:
+            head = f.read(16)
+        if sniff.content_kind(head) == "parquet":
+            # Arrow reads a Parquet file from the disk itself: no copy of its bytes in memory.
+            return _read(head, p.name, where, sheet, max_bytes, kinds, (max_rows, max_columns),
+                         parquet_file=p)
         data = p.read_bytes()
     except FileNotFoundError:
         raise InputError(
@@ -105,7 +111,9 @@ def _mb(n: int) -> str:
 
 
 def _read(data: bytes, filename: str, where: str, sheet, max_bytes: int, kinds,
-          shape: tuple[int | None, int | None]) -> Table:
+          shape: tuple[int | None, int | None], parquet_file: Path | None = None) -> Table:
+    """The Table from a file's bytes (or, for a Parquet file on disk, its first bytes and
+    its path)."""
     ext, gz = sniff.suffixes(filename)
     notes: list[str] = []
     kind = sniff.content_kind(data[:16])
@@ -130,7 +138,7 @@ def _read(data: bytes, filename: str, where: str, sheet, max_bytes: int, kinds,
     elif fmt == "parquet":
         from rankscope.tables.parquet import read_parquet
 
-        raw = read_parquet(data, where, shape)
+        raw = read_parquet(data if parquet_file is None else parquet_file, where, shape)
     else:
         from rankscope.tables.delimited import read_text
 
