@@ -260,16 +260,15 @@ def run_check(args: argparse.Namespace) -> int:
                         sys.stdout, sys.stderr)
 
 
-#: Design cells (rows × columns) up to which the factorization runs on one BLAS thread: a
-#: 10,000 × 20 reduction takes about 6 ms on one, and on a busy 2-core machine the second
-#: thread's start and waits made it 120-150 ms in some runs (measured, threadpoolctl).
-ONE_THREAD_CELLS = 1_000_000
-
-
 def _factor(design: Any, factorize: Any) -> Any:
-    """factorize(design), on one BLAS thread when the design is small."""
-    if design.X.size > ONE_THREAD_CELLS:
-        return factorize(design.X, design.columns, design.y)
+    """factorize(design) on one BLAS thread.
+
+    The blocked reduction makes many small BLAS calls (2 MiB blocks, 16-column panels): a
+    second thread gains little there, and on a busy 2-core machine its start and waits cost
+    10-30× (measured in one process, threadpoolctl: 200,000 × 100 in 0.48 s on one thread
+    against 5-16 s on two; 20,000 × 1,000 in 1.7-2.7 s against 32-35 s; 10,000 × 20 in
+    6 ms against up to 150 ms).
+    """
     from threadpoolctl import threadpool_limits
 
     with threadpool_limits(limits=1, user_api="blas"):

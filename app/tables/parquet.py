@@ -61,10 +61,11 @@ def read_parquet(data: bytes | Path, where: str,
     except (pa.ArrowException, OSError, ValueError) as e:
         raise unreadable(e, where) from None
     notes = []
-    keep = [i for i, n in enumerate(table.column_names) if not PANDAS_INDEX.match(n)]
+    all_names = table.column_names  # a new list at each access: once, not once per column
+    keep = [i for i, n in enumerate(all_names) if not PANDAS_INDEX.match(n)]
     if len(keep) < table.num_columns:
         notes.append("A pandas index stored in the file was left out.")
-    names = [table.column_names[i] for i in keep]
+    names = [all_names[i] for i in keep]
     columns = [table.column(i) for i in keep]
     index = pd.RangeIndex(1, table.num_rows + 1, name="record")
     return Raw(names=names, columns=columns, index=index, where=where, typed=True, notes=notes)
