@@ -7,7 +7,6 @@ from __future__ import annotations
 
 import argparse
 import io
-import json
 import math
 import re
 import sys
@@ -21,7 +20,7 @@ from rankscope.report.checks import (
     EXIT_OK,
     check_document,
     evaluate,
-    json_ready,
+    json_text,
     parse_rule,
 )
 from rankscope.tables.errors import InputError
@@ -33,8 +32,16 @@ CHECK_HELP = """\
   cond>N       the condition number of the unit-length columns exceeds N (∞ when deficient)
   deficient    the design is rank deficient (some column is an exact combination of others)
   '>=' may stand for '>'. Quote rules in the shell: --fail-if 'vif>10'.
+extras (--with, repeatable or comma-separated; computed only when asked, null in the JSON
+otherwise):
+  spearman     Spearman's rank correlations of the columns (ranks every row)
+  order        the columns in a clustered display order (columns that move together)
 exit codes: 0 every rule holds, 1 a rule is crossed, 2 bad input (one line on stderr).
 """
+
+#: What --with may ask for (rankscope.core.correlation.EXTRAS, spelled out here so that the
+#: command's help and checks load without the core).
+EXTRAS = ("spearman", "order")
 
 
 class Parser(argparse.ArgumentParser):
@@ -163,11 +170,23 @@ def check_formula_options(args: argparse.Namespace) -> None:
 
 
 def _checked_options(args: argparse.Namespace) -> list:
-    """The --fail-if rules, after refusing a senseless --tol (both before any reading)."""
+    """The --fail-if rules, after refusing a senseless --tol and reading --with into
+    args.extras (all before any reading)."""
     rules = [parse_rule(t) for t in args.fail_if]
     if args.tol is not None and not (math.isfinite(args.tol) and args.tol > 0):
         raise InputError(f"the tolerance must be a positive number, not {args.tol}", "--tol")
+    args.extras = extras_asked(getattr(args, "with_", None) or [])
     return rules
+
+
+def extras_asked(given: list[str]) -> list[str]:
+    """The extras named by --with (each value may list several, comma-separated), in
+    EXTRAS order; refuses a name it does not know."""
+    asked = {e.strip().lower() for value in given for e in value.split(",") if e.strip()}
+    for name in sorted(asked - set(EXTRAS)):
+        raise InputError(f"there is no extra named {name!r}", "--with",
+                         "Ask for " + " or ".join(EXTRAS) + ", e.g. --with spearman")
+    return [e for e in EXTRAS if e in asked]
 
 
 def _check_keep(args: argparse.Namespace, columns: list[str]) -> None:
@@ -186,10 +205,10 @@ def _write_check(args: argparse.Namespace, rules: list, diagnosis: dict, design:
     exit code."""
     checks = evaluate(rules, diagnosis)
     if args.json:
-        doc = check_document(diagnosis, design, source, notes, checks)
+        doc = check_document(diagnosis, design, source, notes, checks, args.extras)
         doc.update(extra or {})
         # ASCII-only JSON (\u escapes) survives any terminal encoding unchanged.
-        out.write(json.dumps(json_ready(doc), allow_nan=False, indent=2) + "\n")
+        out.write(json_text(doc))
     else:
         from rankscope.report.text import render_text
 
@@ -229,14 +248,31 @@ def run_check(args: argparse.Namespace) -> int:
     except InputError as e:
         raise steps.relabel(e) from e
     _check_keep(args, design.columns)
-    F = factorize(design.X, design.columns, design.y)
+    F = _factor(design, factorize)
     keep = list(args.keep) or None
     found = diagnose_factor(F, response=design.response, groups=design.groups, keep=keep,
-                            tol=args.tol, influence=args.influence)
-    diagnosis = found.to_dict()
+                            tol=args.tol, influence=args.influence,
+                            rank_correlation="spearman" in args.extras,
+                            order="order" in args.extras)
+    diagnosis = fields_of(found)
     diagnosis["remedies"] = remedies_of(found, F, design, steps.steps, keep, args.tol)
     return _write_check(args, rules, diagnosis, design, table.source, table.notes,
                         sys.stdout, sys.stderr)
+
+
+def _factor(design: Any, factorize: Any) -> Any:
+    """factorize(design) on one BLAS thread.
+
+    The blocked reduction makes many small BLAS calls (2 MiB blocks, 16-column panels): a
+    second thread gains little there, and on a busy 2-core machine its start and waits cost
+    10-30× (measured in one process, threadpoolctl: 200,000 × 100 in 0.48 s on one thread
+    against 5-16 s on two; 20,000 × 1,000 in 1.7-2.7 s against 32-35 s; 10,000 × 20 in
+    6 ms against up to 150 ms).
+    """
+    from threadpoolctl import threadpool_limits
+
+    with threadpool_limits(limits=1, user_api="blas"):
+        return factorize(design.X, design.columns, design.y)
 
 
 def stream_check(args: argparse.Namespace, *, out: TextIO | None = None,
@@ -252,6 +288,9 @@ def stream_check(args: argparse.Namespace, *, out: TextIO | None = None,
     out = out or sys.stdout
     err = err or sys.stderr
     rules = _checked_options(args)
+    if "spearman" in args.extras:
+        raise InputError("--stream keeps no rows, and Spearman's correlations rank them",
+                         "--with spearman", "Leave out --stream, or leave out spearman")
     if getattr(args, "sheet", None):
         raise InputError("--stream reads CSV/TSV and Parquet files, which have no sheets",
                          "--sheet", "Leave out --sheet, or leave out --stream for a workbook")
@@ -271,13 +310,22 @@ def stream_check(args: argparse.Namespace, *, out: TextIO | None = None,
 
     keep = list(args.keep) or None
     found = diagnose_factor(F, response=info.response, groups=info.groups, keep=keep,
-                            tol=args.tol)
-    diagnosis = found.to_dict()
+                            tol=args.tol, rank_correlation=False,
+                            order="order" in args.extras)
+    diagnosis = fields_of(found)
     diagnosis["remedies"] = remedies_of(found, F, info.design(), steps.steps, keep, args.tol)
     stream = {"passes": info.passes, "blocks": info.blocks, "bytes": info.bytes_total,
               "seconds": round(info.seconds, 3)}
     return _write_check(args, rules, diagnosis, info.design(), info.source, info.table_notes,
                         out, err, {"stream": stream})
+
+
+def fields_of(found: Any) -> dict[str, Any]:
+    """The Diagnosis's fields as a dict that shares their values: the command only reads
+    them, so the deep copy of to_dict (seconds at 1,000 columns) buys nothing here."""
+    from dataclasses import fields
+
+    return {f.name: getattr(found, f.name) for f in fields(found)}
 
 
 def serve_limits(args: argparse.Namespace) -> Any:
@@ -382,6 +430,9 @@ def build_parser() -> Parser:
                        help="absolute rank tolerance on the singular values of the unit-length "
                             "columns (default: σ_max·max(n, p)·eps)")
     check.add_argument("--json", action="store_true", help="print the diagnosis as JSON")
+    check.add_argument("--with", metavar="EXTRA", dest="with_", action="append", default=[],
+                       help="also compute an extra: spearman, order (repeatable or "
+                            "comma-separated; see below)")
     check.add_argument("--influence", action="store_true",
                        help="also find the rows behind the condition number and each flagged "
                             "near-dependency (exact leave-one-out, one more pass over the rows)")

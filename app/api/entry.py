@@ -99,6 +99,7 @@ def inspect(
     keep: Sequence[str] | None = None,
     tol: float | None = None,
     names: Sequence[str] | None = None,
+    extras: Sequence[str] = ("spearman", "order"),
 ) -> Inspection:
     """Diagnose the design matrix of a linear model.
 
@@ -127,6 +128,11 @@ def inspect(
         (default σ_max·max(n, p)·eps).
     names : sequence of str, optional
         Column names of a NumPy array.
+    extras : sequence of str, default ("spearman", "order")
+        The extras to compute, as `check --with` names them: "spearman" (Spearman's rank
+        correlations, ranking every row) and "order" (the clustered display order). Both by
+        default, since the notebook report shows them; () skips them (faster on wide or
+        long tables), and each one left out is None in the correlations.
 
     Returns
     -------
@@ -142,6 +148,12 @@ def inspect(
     if tol is not None and not (isinstance(tol, int | float) and math.isfinite(tol)
                                 and tol > 0):
         raise InputError(f"the tolerance must be a positive number, not {tol!r}", "tol")
+    if isinstance(extras, str):
+        extras = [extras]
+    for extra in extras:
+        if extra not in ("spearman", "order"):
+            raise InputError(f"there is no extra named {extra!r}", "extras",
+                             'Ask for "spearman" or "order", e.g. extras=("spearman",)')
     # Tables are never taken for models, whatever their columns are called.
     model = None if is_table_like(data) else model_of(data)
     if model is not None:
@@ -172,8 +184,10 @@ def inspect(
 
     F = factorize(design.X, design.columns, design.y, w)
     diagnosis = diagnose_factor(F, response=design.response, groups=design.groups,
-                                keep=keep or None, tol=tol)
+                                keep=keep or None, tol=tol,
+                                rank_correlation="spearman" in extras, order="order" in extras)
     steps = list(used_recipe.steps) if used_recipe is not None else []
     remedies = remedies_of(diagnosis, F, design, steps, keep or None, tol)
     return Inspection(diagnosis, design, source=source, table_notes=table_notes,
-                      formula=used_formula, recipe=used_recipe, weights=w, remedies=remedies)
+                      formula=used_formula, recipe=used_recipe, weights=w, remedies=remedies,
+                      extras=extras)

@@ -6,6 +6,7 @@ from __future__ import annotations
 
 import json
 import math
+from collections.abc import Sequence
 from html import escape
 from typing import Any
 
@@ -44,8 +45,10 @@ class Inspection:
     def __init__(self, diagnosis: Diagnosis, design: Design, *, source: str,
                  table_notes: list[str] | None = None, formula: str | None = None,
                  recipe: Recipe | None = None, weights: np.ndarray | None = None,
-                 remedies: list[dict] | None = None) -> None:
+                 remedies: list[dict] | None = None,
+                 extras: Sequence[str] = ("spearman", "order")) -> None:
         self.diagnosis = diagnosis
+        self.extras = [e for e in ("spearman", "order") if e in extras]
         self.remedies = list(remedies or [])
         self.design = design
         self.source = source
@@ -78,7 +81,8 @@ class Inspection:
         from rankscope.report.checks import check_document, json_ready
 
         found = self.diagnosis.to_dict() | {"remedies": self.remedies}
-        return json_ready(check_document(found, self.design, self.source, self.table_notes, []))
+        return json_ready(check_document(found, self.design, self.source, self.table_notes, [],
+                                         self.extras))
 
     def to_json(self, indent: int | None = 2) -> str:
         """The diagnosis as JSON text.

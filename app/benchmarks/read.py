@@ -1,12 +1,13 @@
-"""Read benchmark: read_table against pandas.read_csv (default options) on the same CSV file.
+"""Read benchmark: read_table against pandas.read_csv and pyarrow.csv.read_csv on the same CSV.
 
     python -m rankscope.benchmarks.read [--mb 100] [--repeat 3]
 
 Writes a CSV of about --mb MB into a temporary folder (6 float columns at full precision, 2
 integer columns, 3 text columns with 3-50 levels, a yes/no column, about 1% empty cells in one
-float column), then times both readers on it alternately and prints the ratio of their best
-times (pandas / read_table: above 1 means read_table is faster). Timings depend on the machine
-and on what else runs on it, so the load average is printed too.
+float column), then times the three readers on it in turn (default options; the order
+rotates each run) and prints the ratio of read_table's best time to the faster of the other
+two (goal: at most 1.25; read_table also infers kinds and keeps line numbers for messages).
+Timings depend on the machine and on what else runs on it, so the load average is printed too.
 """
 
 from __future__ import annotations
@@ -19,10 +20,12 @@ from pathlib import Path
 
 import numpy as np
 import pandas as pd
+import pyarrow.csv as pacsv
 
 from rankscope.tables.read import read_table
 
-GOAL = 2.0
+#: read_table's best time over the faster of pandas.read_csv and pyarrow.csv.read_csv.
+GOAL = 1.25
 
 
 def make_frame(n: int, seed: int = 0) -> pd.DataFrame:
@@ -68,24 +71,28 @@ def main(argv: list[str] | None = None) -> float:
         )
         table = read_table(path)  # warm-up (page cache, imports, thread pools); also a check
         print("kinds: " + ", ".join(f"{c}={k}" for c, k in table.kinds.items()))
-        pd.read_csv(path)
-        ours: list[float] = []
-        theirs: list[float] = []
-        print(f"{'run':>4}  {'read_table':>11}  {'pandas.read_csv':>16}")
+        readers = {"read_table": lambda: read_table(path),
+                   "pandas.read_csv": lambda: pd.read_csv(path),
+                   "pyarrow.csv.read_csv": lambda: pacsv.read_csv(path)}
+        for fn in list(readers.values())[1:]:
+            fn()  # warm-up
+        best = dict.fromkeys(readers, float("inf"))
+        names = list(readers)
+        print(f"{'run':>4}  " + "  ".join(f"{n:>20}" for n in names))
         for run in range(1, args.repeat + 1):
-            if run % 2:  # alternate which reader goes first
-                ours.append(timed(lambda: read_table(path)))
-                theirs.append(timed(lambda: pd.read_csv(path)))
-            else:
-                theirs.append(timed(lambda: pd.read_csv(path)))
-                ours.append(timed(lambda: read_table(path)))
-            print(f"{run:>4}  {ours[-1]:>9.3f} s  {theirs[-1]:>14.3f} s")
-    ratio = min(theirs) / min(ours)
+            k = (run - 1) % len(names)  # rotate which reader goes first
+            took = {n: timed(readers[n]) for n in names[k:] + names[:k]}
+            for n, t in took.items():
+                best[n] = min(best[n], t)
+            print(f"{run:>4}  " + "  ".join(f"{took[n]:>18.3f} s" for n in names))
+    faster = min(names[1:], key=best.__getitem__)
+    ratio = best["read_table"] / best[faster]
     load = ", ".join(f"{x:.1f}" for x in os.getloadavg())
-    print(f"best: read_table {min(ours):.3f} s, pandas.read_csv {min(theirs):.3f} s")
+    print("best: " + ", ".join(f"{n} {best[n]:.3f} s" for n in names))
+    verdict = "met" if ratio <= GOAL else "MISSED"
     print(
-        f"ratio pandas/read_table: {ratio:.2f}x (goal: at least {GOAL:.0f}x; "
-        f"{os.cpu_count()} cores, load average {load})"
+        f"ratio read_table/{faster} (the faster): {ratio:.2f}x (goal: at most {GOAL}x, "
+        f"{verdict}; {os.cpu_count()} cores, load average {load})"
     )
     return ratio
 

@@ -1,6 +1,7 @@
 """Pearson and Spearman correlation matrices of the columns, and a clustered order.
 
-Pearson comes from the centered factor; Spearman needs the rows (ranks).
+Pearson comes from the centered factor; Spearman needs the rows (ranks). scipy.stats and
+scipy.cluster load only when Spearman or the order is asked for (a second of a small check).
 """
 
 from __future__ import annotations
@@ -8,9 +9,10 @@ from __future__ import annotations
 from functools import lru_cache
 
 import numpy as np
-from scipy.cluster.hierarchy import leaves_list, linkage, optimal_leaf_ordering
-from scipy.spatial.distance import squareform
-from scipy.stats import rankdata
+
+#: The extras a caller asks for by name (`check --with`, `inspect(extras=...)`): Spearman's
+#: rank correlations (ranks every row) and the clustered display order of the columns.
+EXTRAS = ("spearman", "order")
 
 
 def pearson_from_factor(Z: np.ndarray) -> np.ndarray:
@@ -25,7 +27,9 @@ def pearson_from_factor(Z: np.ndarray) -> np.ndarray:
 
 def spearman(X: np.ndarray) -> np.ndarray:
     """Spearman's rank correlation: Pearson correlation of the mid-ranks of each column."""
-    Rk = np.apply_along_axis(rankdata, 0, X)
+    from scipy.stats import rankdata
+
+    Rk = rankdata(X, axis=0)  # mid-ranks per column, as scipy.stats.spearmanr ranks
     Rk = Rk - Rk.mean(axis=0)
     nrm = np.linalg.norm(Rk, axis=0)
     Rk = Rk / np.where(nrm > 0, nrm, 1.0)
@@ -62,6 +66,9 @@ def cluster_order(C: np.ndarray) -> list[int]:
 def _order(k: int, data: bytes) -> tuple[int, ...]:
     if k < 3:
         return tuple(range(k))
+    from scipy.cluster.hierarchy import leaves_list, linkage, optimal_leaf_ordering
+    from scipy.spatial.distance import squareform
+
     C = np.frombuffer(data, dtype=np.float64).reshape(k, k)
     D = 1.0 - np.abs(C)
     D = (D + D.T) / 2

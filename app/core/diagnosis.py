@@ -102,6 +102,7 @@ def diagnose(
     proportion_threshold: float = cnd.PROPORTION_THRESHOLD,
     rank_correlation: bool = True,
     influence: bool = False,
+    order: bool = True,
 ) -> Diagnosis:
     """Factor X (n, p) [and y (n,)] once and derive every diagnostic. See diagnose_factor."""
     F = factorize(X, columns, y, weights)
@@ -109,7 +110,7 @@ def diagnose(
         F, response=response, groups=groups, keep=keep, tol=tol, ridge_penalty=ridge_penalty,
         ridge_grid=ridge_grid, index_threshold=index_threshold,
         proportion_threshold=proportion_threshold, rank_correlation=rank_correlation,
-        influence=influence,
+        influence=influence, order=order,
     )
 
 
@@ -190,12 +191,15 @@ def diagnose_factor(
     rank_correlation: bool = True,
     correlations: bool = True,
     influence: bool = False,
+    order: bool = True,
 ) -> Diagnosis:
     """Every diagnostic from one Factorization.
 
     influence: also the exact leave-one-out condition number and flagged condition indices
     for every row (needs the rows; O(n·p²), about one more pass over them).
     correlations: False leaves the correlation matrices empty (a preview needs none).
+    rank_correlation, order: the extras (correlation.EXTRAS), each null when not asked:
+    Spearman's matrix (needs the rows) and the clustered display order.
 
     tol: absolute rank tolerance on the singular values of the unit-length X (Xe);
     default σ_max·max(n, p)·eps. keep: columns to keep in the basis when columns are
@@ -342,7 +346,7 @@ def diagnose_factor(
         "columns": [names[j] for j in nonconst],
         "pearson": pear.tolist(),
         "spearman": None if spear is None else spear.tolist(),
-        "order": cluster_order(pear) if correlations else [],
+        "order": cluster_order(pear) if correlations and order else None,
     }
 
     fit = None

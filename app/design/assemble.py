@@ -182,7 +182,8 @@ def assemble(working: WorkingColumns, plan: Plan) -> Matrix:
                 if ref != ALL_LEVELS:
                     references[col.name] = ref
         else:
-            pairs = [(col.name, col.values.astype(float))]
+            # No copy of a float column: column_stack below makes X, the one copy of each.
+            pairs = [(col.name, col.values.astype(float, copy=False))]
             _check_magnitude(working, col, pairs[0][1])
         for name, values in pairs:
             if name in names:

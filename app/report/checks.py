@@ -6,15 +6,18 @@ Reads finished results only: no linear algebra, no argument parsing, no printing
 
 from __future__ import annotations
 
+import json
 import math
 import operator
 from collections.abc import Callable
 from dataclasses import dataclass
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
-from rankscope.design.design import Design
 from rankscope.report.cautions import choose_cautions
 from rankscope.tables.errors import InputError
+
+if TYPE_CHECKING:  # the design package (pandas) loads when a design is built, not here
+    from rankscope.design.design import Design
 
 EXIT_OK = 0
 EXIT_CROSSED = 1
@@ -116,11 +119,13 @@ def evaluate(rules: list[Rule], d: dict) -> list[dict]:
 
 
 def check_document(diagnosis: dict, design: Design, source: str, notes: list[str],
-                   checks: list[dict]) -> dict[str, Any]:
-    """`check --json`'s document: the diagnosis with the source, the design's facts (the
-    table's notes after the design's), the cautions and the rules' verdicts."""
+                   checks: list[dict], extras: list[str] | None = None) -> dict[str, Any]:
+    """`check --json`'s document: the diagnosis with the source, the extras asked for, the
+    design's facts (the table's notes after the design's), the cautions and the rules'
+    verdicts."""
     doc = dict(diagnosis)
     doc["source"] = source
+    doc["extras"] = list(extras or [])
     doc["design"] = {
         "rows_total": design.rows_total,
         "rows_used": design.rows_used,
@@ -152,3 +157,54 @@ def json_ready(obj: Any) -> Any:
     if isinstance(obj, float):
         return obj if math.isfinite(obj) else None
     return obj
+
+
+#: Containers the JSON writer lays out over several lines; anything else is a leaf.
+_NESTED = {dict, list, tuple}
+
+
+def json_text(doc: Any) -> str:
+    """The document as ASCII JSON text (non-finite numbers as null, as json_ready makes them).
+
+    Objects and lists of containers take a line per item, indented; a list or object of
+    plain values (a matrix row, a column's proportions, a list of names) takes one line,
+    written by json's C encoder: a 1,000-column design's million cells then cost a second,
+    not the pure-Python encoder's twenty (which any indent= selects).
+    """
+    parts: list[str] = []
+    _write(doc, "", parts)
+    parts.append("\n")
+    return "".join(parts)
+
+
+def _write(obj: Any, pad: str, parts: list[str]) -> None:
+    if isinstance(obj, dict):
+        items = obj.values()
+    elif isinstance(obj, list | tuple):
+        items = obj
+    else:
+        parts.append(_leaf(obj))
+        return
+    if not items or not (set(map(type, items)) & _NESTED):
+        parts.append(_leaf(obj))
+        return
+    inner = pad + "  "
+    if isinstance(obj, dict):
+        parts.append("{")
+        for i, (k, v) in enumerate(obj.items()):
+            parts.append(("\n" if i == 0 else ",\n") + inner + json.dumps(str(k)) + ": ")
+            _write(v, inner, parts)
+        parts.append("\n" + pad + "}")
+    else:
+        parts.append("[")
+        for i, v in enumerate(obj):
+            parts.append(("\n" if i == 0 else ",\n") + inner)
+            _write(v, inner, parts)
+        parts.append("\n" + pad + "]")
+
+
+def _leaf(obj: Any) -> str:
+    try:
+        return json.dumps(obj, allow_nan=False, default=json_ready)
+    except ValueError:  # a non-finite number inside: null, as the contract says
+        return json.dumps(json_ready(obj), allow_nan=False)

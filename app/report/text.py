@@ -145,6 +145,10 @@ def flagged_dimensions(d: dict) -> set[int]:
     return out
 
 
+#: Above this many design columns the index table shows only the dimensions that matter.
+WIDE_COLUMNS = 50
+
+
 def _index_table(d: dict) -> list[str]:
     names = d["columns"]
     idx = d["condition_indices"]
@@ -164,10 +168,19 @@ def _index_table(d: dict) -> list[str]:
         "'exact' is a dimension at the rank tolerance.")
     name_w = max(len(n) for n in names + ["condition index"])
     per = max(1, (WIDTH - name_w - 4) // 8)
-    for start in range(0, len(order), per):
-        chunk = order[start:start + per]
-        head = ["dimension"] + [f"#{start + i + 1}" + ("!" if k in flagged else "")
-                                for i, k in enumerate(chunk)]
+    shown = order
+    rank_of = {k: i + 1 for i, k in enumerate(order)}  # 1 = the most ill-conditioned
+    if len(names) > WIDE_COLUMNS:
+        # A wide design's full table is p² cells (a million at 1,000 columns, seconds to
+        # write, none read): the most ill-conditioned dimensions and the flagged ones.
+        shown = [k for k in order if rank_of[k] <= per or k in flagged]
+        lines += wrap(f"{len(shown)} of the {len(order)} dimensions shown: the most "
+                      "ill-conditioned and the flagged ones (the JSON output, --json, has "
+                      "them all).")
+    for start in range(0, len(shown), per):
+        chunk = shown[start:start + per]
+        head = ["dimension"] + [f"#{rank_of[k]}" + ("!" if k in flagged else "")
+                                for k in chunk]
         ix = ["condition index"] + ["exact" if exact[k] else num(idx[k], 3, INF) for k in chunk]
         rows = [head, ix]
         for name in names:

@@ -14,12 +14,9 @@ from pathlib import Path
 
 from rankscope.tables import sniff
 from rankscope.tables.build import build
-from rankscope.tables.delimited import read_text
 from rankscope.tables.errors import InputError
-from rankscope.tables.excel import read_excel
 from rankscope.tables.kinds import with_kinds
 from rankscope.tables.limits import check_cells, check_columns, check_rows, check_unpacked
-from rankscope.tables.parquet import read_parquet
 from rankscope.tables.table import Table
 
 MAX_BYTES = 2_000_000_000
@@ -59,6 +56,12 @@ def read_table(
         if p.is_dir():
             raise InputError("This is a folder, not a file", where, "Choose a file")
         _check_size(size, max_bytes, where)
+        with p.open("rb") as f:
+            head = f.read(16)
+        if sniff.content_kind(head) == "parquet":
+            # Arrow reads a Parquet file from the disk itself: no copy of its bytes in memory.
+            return _read(head, p.name, where, sheet, max_bytes, kinds, (max_rows, max_columns),
+                         parquet_file=p)
         data = p.read_bytes()
     except FileNotFoundError:
         raise InputError(
@@ -108,7 +111,9 @@ def _mb(n: int) -> str:
 
 
 def _read(data: bytes, filename: str, where: str, sheet, max_bytes: int, kinds,
-          shape: tuple[int | None, int | None]) -> Table:
+          shape: tuple[int | None, int | None], parquet_file: Path | None = None) -> Table:
+    """The Table from a file's bytes (or, for a Parquet file on disk, its first bytes and
+    its path)."""
     ext, gz = sniff.suffixes(filename)
     notes: list[str] = []
     kind = sniff.content_kind(data[:16])
@@ -124,11 +129,19 @@ def _read(data: bytes, filename: str, where: str, sheet, max_bytes: int, kinds,
         notes.append("The file name ends in .gz but the content is not compressed.")
     fmt = _format(data, kind, ext, where)
     max_rows, max_columns = shape
+    # Each format's reader loads with its first file (openpyxl alone costs a small check
+    # a quarter of its time).
     if fmt == "excel":
+        from rankscope.tables.excel import read_excel
+
         raw = read_excel(data, where, sheet, max_bytes, shape)
     elif fmt == "parquet":
-        raw = read_parquet(data, where, shape)
+        from rankscope.tables.parquet import read_parquet
+
+        raw = read_parquet(data if parquet_file is None else parquet_file, where, shape)
     else:
+        from rankscope.tables.delimited import read_text
+
         raw = read_text(data, where, ext, declared=(kinds or {}).keys(), max_columns=max_columns)
     check_columns(len(raw.names), max_columns, raw.where)
     check_rows(raw.n_rows, max_rows, raw.where)

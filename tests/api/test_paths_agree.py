@@ -20,7 +20,8 @@ ORIGIN = ("source",)
 
 
 def _cli(*args: str) -> dict:
-    got = run("check", *args, "--json")
+    # The command computes the extras only when asked; inspect() computes both by default.
+    got = run("check", *args, "--json", "--with", "spearman,order")
     assert got.code == 0, got.err
     return got.json()
 

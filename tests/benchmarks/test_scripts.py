@@ -29,7 +29,8 @@ def test_memory_benchmark_smoke(tmp_path: Path) -> None:
 
 def test_read_benchmark_smoke() -> None:
     out = _run("rankscope.benchmarks.read", "--mb", "0.5", "--repeat", "1")
-    assert "read_table" in out and "pandas.read_csv" in out and "ratio pandas/read_table" in out
+    assert "read_table" in out and "pandas.read_csv" in out and "pyarrow.csv.read_csv" in out
+    assert "ratio read_table/" in out and "(the faster)" in out
 
 
 def test_refit_benchmark_smoke() -> None:

@@ -103,3 +103,22 @@ def test_number_format() -> None:
     assert num(1234.5678, 6) == "1234.57"
     assert num(4709234.0) == "4709234"
     assert num(1.5e-9, 3) == "1.5e-09"
+
+
+def test_wide_design_shows_the_dimensions_that_matter() -> None:
+    """Above WIDE_COLUMNS columns the index table keeps the most ill-conditioned and the
+    flagged dimensions; a planted near-dependency (x3 ≈ x1 + x2, random data) stays in view.
+    Reference: the planted relation's columns carry the flagged shares."""
+    rng = np.random.default_rng(8)
+    n, p = 400, 60
+    X = rng.standard_normal((n, p))
+    X[:, 3] = X[:, 1] + X[:, 2] + 1e-4 * rng.standard_normal(n)
+    names = [f"x{j}" for j in range(p)]
+    d, des = make(np.column_stack([np.ones(n), X]), [INTERCEPT, *names], None)
+    text = render_text(d, des)
+    assert "dimensions shown: the most ill-conditioned and the flagged ones" in text
+    table = text.split("Condition indices and variance-decomposition proportions")[1]
+    header = [ln for ln in table.splitlines() if ln.strip().startswith("dimension ")]
+    assert len(header) == 1 and "#1!" in header[0]  # one block of columns, flagged first
+    row = next(ln for ln in table.splitlines() if ln.strip().startswith("x3 "))
+    assert "*" in row

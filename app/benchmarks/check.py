@@ -1,0 +1,177 @@
+"""Whole-process benchmark of `rankscope check` against a fresh-process pyarrow read + lstsq.
+
+`python -m rankscope.benchmarks.check [--quick] [--repeat N]` prints one table of wall-time
+ratios with each goal beside it; it asserts nothing and never hides a miss.
+
+Each case writes a table of random columns (planted: y depends on the first five) into a
+temporary folder, then times in fresh interpreters, alternately: `python -m rankscope check
+FILE --response y` (the terminal report, and the same with --json), and the baseline, which
+reads the same file with pyarrow (pyarrow.csv or pyarrow.parquet), stacks the matrix with a
+constant column and solves it with numpy.linalg.lstsq. The best wall time of each is kept. The
+import row sums Python's -X importtime over every module `check` loads, beside the same sum
+for the baseline; the goal is on what the command imports beyond the baseline's numpy and
+pyarrow. Timings depend on the machine and its load (printed).
+"""
+
+from __future__ import annotations
+
+import argparse
+import os
+import subprocess
+import sys
+import tempfile
+import time
+from dataclasses import dataclass
+from pathlib import Path
+
+import numpy as np
+
+#: (label, rows, columns, format, goal: check / baseline wall time).
+CASES = {
+    "full": [("10,000 × 20 CSV", 10_000, 20, "csv", 1.5),
+             ("200,000 × 100 Parquet", 200_000, 100, "parquet", 1.0),
+             ("20,000 × 1,000 Parquet", 20_000, 1_000, "parquet", 1.5)],
+    "quick": [("2,000 × 10 CSV", 2_000, 10, "csv", 1.5),
+              ("20,000 × 20 Parquet", 20_000, 20, "parquet", 1.0),
+              ("2,000 × 100 Parquet", 2_000, 100, "parquet", 1.5)],
+}
+REPEATS = {"full": 3, "quick": 1}
+#: Seconds the command's own imports may take beyond the baseline's (numpy, pyarrow).
+IMPORT_SECONDS = 0.3
+
+#: The baseline, run as `python -c BASELINE FILE`: read with pyarrow, least squares by numpy.
+BASELINE = """\
+import sys
+import numpy as np
+path = sys.argv[1]
+if path.endswith(".parquet"):
+    import pyarrow.parquet as pq
+    t = pq.read_table(path)
+else:
+    import pyarrow.csv as pc
+    t = pc.read_csv(path)
+names = [c for c in t.column_names if c != "y"]
+X = np.column_stack([np.ones(t.num_rows)] + [t[c].to_numpy() for c in names])
+np.linalg.lstsq(X, t["y"].to_numpy(), rcond=None)
+"""
+
+
+@dataclass
+class Row:
+    what: str
+    measured: str
+    goal: str
+    verdict: str
+
+
+def write_table(folder: Path, n: int, p: int, fmt: str, seed: int = 0) -> Path:
+    """Random columns x0..x{p-1} and y = x0 + … + x4 + noise, as CSV or Parquet."""
+    rng = np.random.default_rng(seed)
+    X = rng.standard_normal((n, p))
+    y = X[:, : min(5, p)].sum(axis=1) + rng.standard_normal(n)
+    names = [f"x{j}" for j in range(p)]
+    path = folder / f"table_{n}x{p}.{fmt}"
+    if fmt == "parquet":
+        import pyarrow as pa
+        import pyarrow.parquet as pq
+
+        cols = {c: X[:, j] for j, c in enumerate(names)} | {"y": y}
+        pq.write_table(pa.table(cols), path)
+    else:
+        with path.open("w", encoding="utf-8") as f:
+            f.write(",".join([*names, "y"]) + "\n")
+            np.savetxt(f, np.column_stack([X, y]), delimiter=",", fmt="%.17g")
+    return path
+
+
+def wall(cmd: list[str]) -> float:
+    """Wall time of one fresh process (its output thrown away); raises when it fails."""
+    start = time.perf_counter()
+    done = subprocess.run(cmd, stdout=subprocess.DEVNULL, stderr=subprocess.PIPE, text=True)
+    took = time.perf_counter() - start
+    if done.returncode != 0:
+        raise RuntimeError(f"{' '.join(cmd)} failed: {done.stderr.strip()[-500:]}")
+    return took
+
+
+def import_seconds(cmd: list[str]) -> float:
+    """The sum of -X importtime's own times over every module the process imports."""
+    done = subprocess.run([sys.executable, "-X", "importtime", *cmd], stdout=subprocess.DEVNULL,
+                          stderr=subprocess.PIPE, text=True)
+    total = 0
+    for line in done.stderr.splitlines():
+        head, _, rest = line.partition("|")
+        if line.startswith("import time:") and rest and head.split(":")[1].strip().isdigit():
+            total += int(head.split(":")[1])
+    return total / 1e6
+
+
+def _verdict(ratio: float, goal: float) -> str:
+    return "met" if ratio <= goal else "MISSED"
+
+
+def case_rows(label: str, path: Path, goal: float, repeats: int) -> list[Row]:
+    check = [sys.executable, "-m", "rankscope", "check", str(path), "--response", "y"]
+    runs = {"check": check, "check --json": [*check, "--json"],
+            "baseline": [sys.executable, "-c", BASELINE, str(path)]}
+    best = dict.fromkeys(runs, float("inf"))
+    for r in range(repeats):
+        order = list(runs) if r % 2 == 0 else list(reversed(runs))  # alternate who goes first
+        for name in order:
+            best[name] = min(best[name], wall(runs[name]))
+    rows = []
+    for name in ("check", "check --json"):
+        ratio = best[name] / best["baseline"]
+        rows.append(Row(f"{label}: `{name}` / pyarrow read + lstsq",
+                        f"{ratio:.2f}× ({best[name]:.2f} s / {best['baseline']:.2f} s)",
+                        f"≤ {goal:g}×", _verdict(ratio, goal)))
+    return rows
+
+
+def import_row(path: Path) -> Row:
+    ours = import_seconds(["-m", "rankscope", "check", str(path), "--response", "y"])
+    theirs = import_seconds(["-c", BASELINE, str(path)])
+    extra = ours - theirs
+    return Row("imports of `check` beyond the baseline's (numpy, pyarrow)",
+               f"{extra:.2f} s ({ours:.2f} s all, baseline {theirs:.2f} s)",
+               f"≤ {IMPORT_SECONDS} s", "met" if extra <= IMPORT_SECONDS else "MISSED")
+
+
+def render(rows: list[Row]) -> str:
+    head = ("what", "measurement", "goal", "verdict")
+    widths = [max(len(h), *(len(getattr(r, f)) for r in rows))
+              for h, f in zip(head, ("what", "measured", "goal", "verdict"), strict=True)]
+    lines = ["| " + " | ".join(h.ljust(w) for h, w in zip(head, widths, strict=True)) + " |",
+             "|" + "|".join("-" * (w + 2) for w in widths) + "|"]
+    for r in rows:
+        cells = (r.what, r.measured, r.goal, r.verdict)
+        lines.append("| " + " | ".join(c.ljust(w) for c, w in zip(cells, widths, strict=True))
+                     + " |")
+    return "\n".join(lines)
+
+
+def main(argv: list[str] | None = None) -> int:
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("--quick", action="store_true", help="small tables (a smoke run)")
+    parser.add_argument("--repeat", type=int, default=None, help="timed runs of each process")
+    args = parser.parse_args(argv)
+    mode = "quick" if args.quick else "full"
+    repeats = args.repeat or REPEATS[mode]
+    rows: list[Row] = []
+    with tempfile.TemporaryDirectory() as tmp:
+        for label, n, p, fmt, goal in CASES[mode]:
+            path = write_table(Path(tmp), n, p, fmt)
+            rows += case_rows(label, path, goal, repeats)
+            if fmt == "csv":
+                rows.append(import_row(path))
+    load = ", ".join(f"{x:.1f}" for x in os.getloadavg())
+    print(f"mode: {mode}, best of {repeats} fresh processes each; {os.cpu_count()} cores, "
+          f"load average {load}")
+    print(render(rows))
+    missed = sum(r.verdict == "MISSED" for r in rows)
+    print(f"{missed} goal(s) MISSED" if missed else "every goal met")
+    return 0
+
+
+if __name__ == "__main__":
+    raise SystemExit(main())
