@@ -157,11 +157,12 @@ def block_choices(s: Structure) -> list[dict[str, Any]]:
 
 # ---- the columns that matter ------------------------------------------------------------
 def _in_relations(diagnosis: dict[str, Any]) -> list[str]:
-    cols: dict[str, None] = {}
-    for dep in diagnosis.get("dependencies") or []:
-        cols[dep["column"]] = None
-        for c in dep.get("combination") or {}:
-            cols[c] = None
+    """The columns of the equations: first each left-hand side (the columns that add
+    nothing), then the others in the order the equations name them."""
+    deps = diagnosis.get("dependencies") or []
+    cols: dict[str, None] = dict.fromkeys(dep["column"] for dep in deps)
+    for dep in deps:
+        cols.update(dict.fromkeys(dep.get("combination") or {}))
     return list(cols)
 
 
