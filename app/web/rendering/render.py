@@ -10,6 +10,7 @@ from typing import Any
 
 from jinja2 import Environment, FileSystemLoader, select_autoescape
 
+from rankscope.design.design import INTERCEPT
 from rankscope.design.steps import COMBINE_METHODS
 from rankscope.report.cautions import choose_cautions
 from rankscope.report.figures import (
@@ -120,7 +121,7 @@ COMPARE_ROWS = 30
 FIGURE_BARS = 30
 
 
-def wide_context(analysis: Analysis, deps: list[dict[str, Any]]) -> dict[str, Any]:
+def wide_context(analysis: Analysis) -> dict[str, Any]:
     """What the page of a wide design shows instead of full tables and the p × p figures:
     the columns that matter, the first page of the VIF and fit tables, the block summary.
     The index table and the pairs are fetched when their panel is opened."""
@@ -130,11 +131,14 @@ def wide_context(analysis: Analysis, deps: list[dict[str, Any]]) -> dict[str, An
                "inflation": inflation_bars(d, FIGURE_BARS),
                "ridge": ridge_trace(d),
                "blocks-pearson": wide.summary_figure(s) if s else None}
+    deps = d["dependencies"]
     listed = []
     for dep in deps[:wide.LISTED_EQUATIONS]:
-        shown = dep["remedies"][:wide.EQUATION_REMEDIES]
+        # A relation among hundreds of indicators: a few of its drops here, all previewed.
+        shown = views.dependency_remedies(dep, analysis, wide.EQUATION_REMEDIES)
+        others = sum(c != INTERCEPT for c in dep["combination"])
         listed.append({**dep, "remedies": shown,
-                       "more_remedies": len(dep["remedies"]) - len(shown)})
+                       "more_remedies": max(others + 2 - len(shown), 0)})
     return {
         "wide": True,
         "listed": wide.LISTED_EQUATIONS,
@@ -153,11 +157,11 @@ def workspace_context(analyst: Analyst, session: Session, analysis: Analysis,
     """Everything the inspection view shows for the current state of a session; without
     can_edit the controls are shown switched off (a view-only link)."""
     d = analysis.diagnosis
-    deps = [{**dep, "remedies": views.dependency_remedies(dep, analysis)}
-            for dep in d["dependencies"]]
     if wide.is_wide(d):
-        shown = wide_context(analysis, deps)
+        shown = wide_context(analysis)
     else:
+        deps = [{**dep, "remedies": views.dependency_remedies(dep, analysis)}
+                for dep in d["dependencies"]]
         shown = {"wide": False, "dependencies": deps, "vif_rows": views.vif_rows(d),
                  "index_rows": views.index_rows(d), "figures": views.plain(all_figures(d))}
     predictors = [w for w in analysis.working if w.role == "predictor"]

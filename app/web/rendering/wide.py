@@ -47,24 +47,30 @@ def is_wide(diagnosis: dict[str, Any]) -> bool:
 # ---- results kept per diagnosis ---------------------------------------------------------
 # A page of a table, a block's heatmap and the lead section all read the same diagnosis
 # (the Analyst keeps it): what they derive is kept beside it, keyed by the object itself
-# (held, so its id cannot be reused while the entry lives).
-_KEPT: OrderedDict[tuple[int, str], tuple[object, object]] = OrderedDict()
-_KEPT_MOST = 24
+# (held, so its id cannot be reused while the entry lives). Few owners: each is a whole
+# diagnosis, which the Analyst's own cache holds anyway while it is recent.
+_KEPT: OrderedDict[int, tuple[object, dict[str, object]]] = OrderedDict()
+_KEPT_OWNERS = 6  # a diagnosis and its correlations are two owners
 _LOCK = threading.Lock()
 
 
 def kept(owner: object, what: str, make: Callable[[], T]) -> T:
-    """make(), once per (owner object, what) while the entry is among the recent ones."""
-    key = (id(owner), what)
+    """make(), once per (owner object, what) while the owner is among the recent ones."""
     with _LOCK:
-        hit = _KEPT.get(key)
+        hit = _KEPT.get(id(owner))
         if hit is not None and hit[0] is owner:
-            _KEPT.move_to_end(key)
-            return hit[1]  # type: ignore[return-value]
+            _KEPT.move_to_end(id(owner))
+            if what in hit[1]:
+                return hit[1][what]  # type: ignore[return-value]
     value = make()
     with _LOCK:
-        _KEPT[key] = (owner, value)
-        while len(_KEPT) > _KEPT_MOST:
+        hit = _KEPT.get(id(owner))
+        if hit is None or hit[0] is not owner:
+            hit = (owner, {})
+        hit[1][what] = value
+        _KEPT[id(owner)] = hit
+        _KEPT.move_to_end(id(owner))
+        while len(_KEPT) > _KEPT_OWNERS:
             _KEPT.popitem(last=False)
     return value
 
