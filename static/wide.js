@@ -64,7 +64,9 @@
     return tr;
   }
 
-  function render(box, page) {
+  // remember: the page's sort, order and offset become the table's state (not for the page
+  // that came with a fragment while the user's own view is being fetched again).
+  function render(box, page, remember = true) {
     const table = box.querySelector("table");
     table.tHead.replaceChildren(header(page));
     table.tBodies[0].replaceChildren(...page.rows.map((r) => row(page, r)));
@@ -82,9 +84,11 @@
     box.dataset.loaded = "1";
     box.dataset.sort = page.sort;
     box.dataset.order = page.order;
-    Object.assign(stateOf(page.table), {
-      sort: page.sort, order: page.order, offset: page.offset, limit: page.limit,
-    });
+    if (remember) {
+      Object.assign(stateOf(page.table), {
+        sort: page.sort, order: page.order, offset: page.offset, limit: page.limit,
+      });
+    }
   }
 
   async function load(box) {
@@ -128,8 +132,15 @@
       if (holder && s.open) holder.open = true; // its toggle event loads it
       if (holder && !holder.open) return;
       const page = embedded(box);
-      if (page && !s.touched) render(box, page);
-      else if (!holder || !s.open) load(box);
+      // The page that came with the fragment is drawn at once; a table the user sorted,
+      // paged or filtered asks again for the same view (shown dimmed until it comes).
+      if (page) render(box, page, !s.touched);
+      if (s.touched && (!holder || !s.open)) {
+        box.classList.add("loading");
+        load(box);
+      } else if (!page && !holder) {
+        load(box);
+      }
     });
   }
 

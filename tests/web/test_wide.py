@@ -247,3 +247,23 @@ def test_a_change_answers_a_wide_fragment_and_compares_what_changed(app_client,
     assert rows[0] == "noise" and len(rows) == 30
     assert 'id="compare-more"' in html
     step(app_client, wide_sid, {"step": "restore", "column": "noise"})
+
+
+def test_markup_in_names_stays_text_on_the_wide_page(app_client) -> None:
+    """A category level that is markup (not the reference level, which sorts first): escaped
+    on the page, entities in Plotly labels, plain text in the JSON pages (the page writes it
+    with textContent). Reference: HTML 5 named character references."""
+    frame = pd.read_csv(io.BytesIO(wide_csv()))
+    frame.loc[frame["store"] == "s001", "store"] = "z<img src=x onerror=alert(1)>"
+    r = app_client.post("/api/upload", files={
+        "file": ("markup.csv", frame.to_csv(index=False).encode(), "text/csv")})
+    sid = r.json()["session"]
+    html = app_client.get(f"/s/{sid}/inspect").text
+    assert "<img src=x" not in html and "&lt;img src=x onerror=alert(1)&gt;" in html
+    labels = json.dumps(figure_data(html)["blocks-pearson"])
+    assert "<img" not in labels
+    found = page(app_client, sid, "vif", q="img")
+    assert found["rows"][0]["column"] == "store[z<img src=x onerror=alert(1)>]"
+    for b in app_client.get(f"/api/s/{sid}/blocks").json()["blocks"]:
+        one = app_client.get(f"/api/s/{sid}/blocks/{b['number']}").json()
+        assert "<img" not in json.dumps(one["figure"]["data"][0]["x"])
