@@ -342,6 +342,8 @@
       if (openControls[i]) d.open = true;
     });
     drawFigures();
+    // What draws itself from the fragment (wide.js: paged tables, blocks) does so now.
+    document.dispatchEvent(new CustomEvent("rankscope:swapped"));
     // The title lives outside the fragment; someone may have renamed the session.
     const title = document.getElementById("session-title");
     if (title && fresh.dataset.title) title.textContent = fresh.dataset.title;
@@ -599,7 +601,8 @@
   }
 
   // What the live feed (live.js) needs from this file.
-  window.rankscope = { announce: announce, notify: notify, revision: currentRevision };
+  window.rankscope = { announce: announce, notify: notify, revision: currentRevision,
+    drawFigures: drawFigures };
 
   setupUpload();
   drawFigures();

@@ -67,27 +67,57 @@ def correlation_heatmap(diagnosis: dict, method: str = "pearson") -> Figure | No
     order = corr.get("order") or list(range(len(names)))
     labels = [plot_text(names[i]) for i in order]
     z = [[matrix[i][j] for j in order] for i in order]
-    text = [[f"{v:.3f}" for v in row] for row in z]
     label = "Pearson" if method == "pearson" else "Spearman (rank)"
+    return _named_heatmap(labels, z, f"{label} correlations, related columns grouped")
+
+
+def _correlation_trace(labels: list[str], z: list[list[Any]], text: list[list[str]],
+                       hover: str, **extra: Any) -> dict[str, Any]:
+    """A heatmap trace of correlations on the diverging scale from −1 to 1."""
+    return {"type": "heatmap", "z": z, "x": labels, "y": labels, "zmin": -1.0, "zmax": 1.0,
+            "colorscale": CORRELATION_SCALE, "text": text, "hovertemplate": hover,
+            "colorbar": {"title": {"text": "r"}, "thickness": 12}, **extra}
+
+
+def _named_heatmap(labels: list[str], z: list[list[float]], title: str) -> Figure:
+    """A correlation heatmap with a name on every row and column (labels: plot_text)."""
+    text = [[f"{v:.3f}" for v in row] for row in z]
     size = max(360, min(900, 140 + 22 * len(labels)))
     return {
-        "data": [{
-            "type": "heatmap",
-            "z": z,
-            "x": labels,
-            "y": labels,
-            "zmin": -1.0,
-            "zmax": 1.0,
-            "colorscale": CORRELATION_SCALE,
-            "text": text,
-            "hovertemplate": "%{y} with %{x}: %{text}<extra></extra>",
-            "colorbar": {"title": {"text": "r"}, "thickness": 12},
-        }],
+        "data": [_correlation_trace(labels, z, text,
+                                    "%{y} with %{x}: %{text}<extra></extra>")],
         "layout": _layout(
-            f"{label} correlations, related columns grouped",
+            title,
             height=size,
             xaxis={"tickangle": -45, "automargin": True, "side": "bottom"},
             yaxis={"autorange": "reversed", "automargin": True},
+        ),
+    }
+
+
+def block_heatmap(names: list[str], z: list[list[float]], title: str) -> Figure:
+    """The correlations of one block of columns, with their names (names: as written; made
+    into label text here)."""
+    return _named_heatmap([plot_text(n) for n in names], z, title)
+
+
+def block_summary_heatmap(labels: list[str], z: list[list[float | None]],
+                          hover: list[list[str]], title: str) -> Figure:
+    """Blocks of columns against blocks: each cell the correlation of largest size between
+    a column of one block and a column of the other (labels and hover: as written; made into
+    label text here). Blocks are numbered on the axes, so a click names one block."""
+    ticks = [f"{k + 1}. {plot_text(t)}" for k, t in enumerate(labels)]
+    size = max(360, min(760, 160 + 17 * len(labels)))
+    text = [[plot_text(h) for h in row] for row in hover]
+    return {
+        "data": [_correlation_trace(ticks, z, text, "%{text}<extra></extra>",
+                                    hoverongaps=False, xgap=1, ygap=1)],
+        "layout": _layout(
+            title,
+            height=size,
+            xaxis={"tickangle": -45, "automargin": True, "side": "bottom",
+                   "tickfont": {"size": 10}},
+            yaxis={"autorange": "reversed", "automargin": True, "tickfont": {"size": 10}},
         ),
     }
 
@@ -146,15 +176,21 @@ def singular_value_spectrum(diagnosis: dict) -> Figure:
     }
 
 
-def inflation_bars(diagnosis: dict) -> Figure | None:
+def inflation_bars(diagnosis: dict, limit: int | None = None) -> Figure | None:
     """VIF per column, largest first, log scale. Infinite VIFs (columns in an exact
-    dependency) are drawn at the right edge in brick and labelled as infinite."""
+    dependency) are drawn at the right edge in brick and labelled as infinite.
+
+    limit: draw only the `limit` largest (a wide design); the title says how many of all.
+    """
     vif = diagnosis.get("vif") or {}
     if not vif:
         return None
     finite = [v for v in vif.values() if v is not None]
     edge = max(finite + [VIF_GUIDE]) * 10
     ordered = sorted(vif.items(), key=lambda kv: -(math.inf if kv[1] is None else kv[1]))
+    shown = "" if limit is None or limit >= len(ordered) else \
+        f", the largest {limit} of {len(ordered):,}"
+    ordered = ordered[:limit]
     names = [plot_text(c) for c, _ in ordered]
     values = [edge if v is None else v for _, v in ordered]
     colors = [BRICK if v is None else (AMBER if v >= VIF_GUIDE else TEAL) for _, v in ordered]
@@ -173,7 +209,7 @@ def inflation_bars(diagnosis: dict) -> Figure | None:
             "hovertemplate": "%{y}: VIF %{text}<extra></extra>",
         }],
         "layout": _layout(
-            f"Variance inflation per column ({kind})",
+            f"Variance inflation per column ({kind}{shown})",
             xaxis=_axis("VIF (log scale)", type="log", range=[0, math.log10(edge) + 0.4]),
             yaxis={"autorange": "reversed", "automargin": True},
             height=max(260, 70 + 24 * len(names)),

@@ -29,7 +29,16 @@ from rankscope.web.analyst import Analyst, UnknownSession
 from rankscope.web.budget import AnalysisTooSlow, Budget
 from rankscope.web.live.feed import Hub
 from rankscope.web.rendering.render import STATIC, render
-from rankscope.web.routes import api, assets, downloads, formulas, insight, pages, sessions
+from rankscope.web.routes import (
+    api,
+    assets,
+    downloads,
+    formulas,
+    insight,
+    pages,
+    sessions,
+    tables,
+)
 from rankscope.web.stored import StoredSessions, session_check
 
 GONE = ("There is no session at this address: it may have been deleted, or the link may be "
@@ -116,6 +125,7 @@ def create_app(store: Store | None = None, *, share: bool = False,
     app.include_router(sessions.router)
     app.include_router(formulas.router)
     app.include_router(downloads.router)
+    app.include_router(tables.router)
 
     @app.exception_handler(InputError)
     async def input_error(request: Request, exc: InputError) -> Response:

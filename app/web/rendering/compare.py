@@ -5,6 +5,7 @@ Reads fit dicts from the core and lines them up for display; no fitting, no rend
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 from typing import Any
 
@@ -102,3 +103,16 @@ def summary_pairs(a: FitRef, b: FitRef) -> list[tuple[str, Any, Any]]:
         ("Residual SD", fa.get("residual_std"), fb.get("residual_std")),
         ("Aliased columns", len(fa.get("aliased", [])), len(fb.get("aliased", []))),
     ]
+
+
+def most_changed(rows: list[CompareRow], limit: int) -> list[CompareRow]:
+    """The `limit` rows that changed most: a column in one fit only or aliased in one first,
+    then by how far the standard error moved (the factor's distance from 1 on a log scale),
+    then by the size of the coefficient's change; ties keep B's order."""
+    def moved(r: CompareRow) -> tuple[int, float, float]:
+        f = r.se_factor
+        spread = abs(math.log(f)) if f is not None and f > 0 else 0.0
+        return (0 if r.status not in ("both", "aliased_both") else 1, -spread,
+                -abs(r.change or 0.0))
+
+    return sorted(rows, key=moved)[:limit]

@@ -10,13 +10,19 @@ from typing import Any
 
 from jinja2 import Environment, FileSystemLoader, select_autoescape
 
+from rankscope.design.design import INTERCEPT
 from rankscope.design.steps import COMBINE_METHODS
 from rankscope.report.cautions import choose_cautions
-from rankscope.report.figures import all_figures
+from rankscope.report.figures import (
+    all_figures,
+    inflation_bars,
+    ridge_trace,
+    singular_value_spectrum,
+)
 from rankscope.tables.errors import InputError
 from rankscope.web.analyst import Analysis, Analyst, describe_change
-from rankscope.web.rendering import views
-from rankscope.web.rendering.compare import FitRef, compare_fits, summary_pairs
+from rankscope.web.rendering import paging, views, wide
+from rankscope.web.rendering.compare import FitRef, compare_fits, most_changed, summary_pairs
 from rankscope.web.state import Session
 
 ROOT = Path(__file__).resolve().parents[3]
@@ -99,9 +105,51 @@ def compare_context(analyst: Analyst, session: Session, a: str, b: str) -> dict[
     ctx: dict[str, Any] = {"session": session, "choices": choices, "ref_a": a, "ref_b": b,
                            "fit_a": fa, "fit_b": fb, "rows": [], "summary": []}
     if fa is not None and fb is not None:
-        ctx["rows"] = compare_fits(fa, fb)
+        rows = compare_fits(fa, fb)
         ctx["summary"] = summary_pairs(fa, fb)
+        if len(rows) > wide.WIDE_COLUMNS:
+            # A wide design: the columns whose estimates changed most, not every one.
+            ctx["rows"], ctx["rows_total"] = most_changed(rows, COMPARE_ROWS), len(rows)
+        else:
+            ctx["rows"] = rows
     return ctx
+
+
+#: Rows the comparison of two fits of a wide design shows (those that changed most).
+COMPARE_ROWS = 30
+#: Bars of the VIF chart of a wide design (the largest VIFs; the table pages the rest).
+FIGURE_BARS = 30
+
+
+def wide_context(analysis: Analysis) -> dict[str, Any]:
+    """What the page of a wide design shows instead of full tables and the p × p figures:
+    the columns that matter, the first page of the VIF and fit tables, the block summary.
+    The index table and the pairs are fetched when their panel is opened."""
+    d = analysis.diagnosis
+    s = wide.structure(d)
+    figures = {"spectrum": singular_value_spectrum(d),
+               "inflation": inflation_bars(d, FIGURE_BARS),
+               "ridge": ridge_trace(d),
+               "blocks-pearson": wide.summary_figure(s) if s else None}
+    deps = d["dependencies"]
+    listed = []
+    for dep in deps[:wide.LISTED_EQUATIONS]:
+        # A relation among hundreds of indicators: a few of its drops here, all previewed.
+        shown = views.dependency_remedies(dep, analysis, wide.EQUATION_REMEDIES)
+        others = sum(c != INTERCEPT for c in dep["combination"])
+        listed.append({**dep, "remedies": shown,
+                       "more_remedies": max(others + 2 - len(shown), 0)})
+    return {
+        "wide": True,
+        "listed": wide.LISTED_EQUATIONS,
+        "focus": wide.focus(d),
+        "dependencies": listed,
+        "unlisted": len(deps) - len(listed),
+        "figures": views.plain(figures),
+        "pages": views.plain({"vif": paging.table_page(d, "vif"),
+                              "fit": paging.table_page(d, "fit") if d.get("fit") else None}),
+        "downloads": paging.DOWNLOADS,
+    }
 
 
 def workspace_context(analyst: Analyst, session: Session, analysis: Analysis,
@@ -109,9 +157,13 @@ def workspace_context(analyst: Analyst, session: Session, analysis: Analysis,
     """Everything the inspection view shows for the current state of a session; without
     can_edit the controls are shown switched off (a view-only link)."""
     d = analysis.diagnosis
-    figures = all_figures(d)
-    deps = [{**dep, "remedies": views.dependency_remedies(dep, analysis)}
-            for dep in d["dependencies"]]
+    if wide.is_wide(d):
+        shown = wide_context(analysis)
+    else:
+        deps = [{**dep, "remedies": views.dependency_remedies(dep, analysis)}
+                for dep in d["dependencies"]]
+        shown = {"wide": False, "dependencies": deps, "vif_rows": views.vif_rows(d),
+                 "index_rows": views.index_rows(d), "figures": views.plain(all_figures(d))}
     predictors = [w for w in analysis.working if w.role == "predictor"]
     numeric = [w for w in predictors if w.kind in ("numeric", "boolean")]
     a, b = default_refs(session)
@@ -121,10 +173,7 @@ def workspace_context(analyst: Analyst, session: Session, analysis: Analysis,
         "session": session,
         "analysis": analysis,
         "d": d,
-        "dependencies": deps,
-        "vif_rows": views.vif_rows(d),
-        "index_rows": views.index_rows(d),
-        "figures": views.plain(figures),
+        **shown,
         "cautions": choose_cautions(d),
         "predictors": predictors,
         "numeric_predictors": numeric,
@@ -145,6 +194,15 @@ def workspace_context(analyst: Analyst, session: Session, analysis: Analysis,
 def workspace_html(analyst: Analyst, session: Session, analysis: Analysis,
                    can_edit: bool = True) -> str:
     return render("workspace.html", **workspace_context(analyst, session, analysis, can_edit))
+
+
+def wide_session(analyst: Analyst, session: Session) -> bool:
+    """Whether the session's current state is a wide design (its analysis is kept, so
+    asking after current_html costs nothing)."""
+    try:
+        return wide.is_wide(analyst.current(session).diagnosis)
+    except InputError:
+        return False
 
 
 def current_html(analyst: Analyst, session: Session, can_edit: bool = True) -> str:

@@ -109,15 +109,18 @@ def keep_remedy(column: str) -> Remedy:
     )
 
 
-def dependency_remedies(dep: dict[str, Any], analysis: Analysis) -> list[Remedy]:
+def dependency_remedies(dep: dict[str, Any], analysis: Analysis,
+                        limit: int | None = None) -> list[Remedy]:
     """For one exact dependency: drop the dependent column, keep it in place of one of the
-    others, or drop one of the others."""
+    others, or drop one of the others (the first `limit` of these, when given)."""
     out: list[Remedy] = []
     first = drop_remedy(dep["column"], analysis)
     if first is not None:
         out.append(first)
     out.append(keep_remedy(dep["column"]))
     for other in dep["combination"]:
+        if limit is not None and len(out) >= limit:
+            break
         r = drop_remedy(other, analysis)
         if r is not None and other != INTERCEPT:
             out.append(r)

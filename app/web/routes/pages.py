@@ -13,7 +13,12 @@ from rankscope.tables.errors import InputError
 from rankscope.web.access.gate import can_edit, role_of
 from rankscope.web.analyst import Analyst
 from rankscope.web.rendering.overview import summarize
-from rankscope.web.rendering.render import compare_context, current_html, render
+from rankscope.web.rendering.render import (
+    compare_context,
+    current_html,
+    render,
+    wide_session,
+)
 
 router = APIRouter()
 
@@ -60,7 +65,8 @@ def inspect_page(request: Request, session_id: str) -> HTMLResponse:
     analyst = analyst_of(request)
     session = analyst.session(session_id)
     return _page(request, "inspect.html", session=session,
-                 workspace=current_html(analyst, session, can_edit(request)))
+                 workspace=current_html(analyst, session, can_edit(request)),
+                 lazy_figures=wide_session(analyst, session))
 
 
 @router.get("/s/{session_id}/workspace", response_class=HTMLResponse)
