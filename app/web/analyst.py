@@ -9,6 +9,7 @@ import json
 import logging
 import threading
 import time
+from collections.abc import Callable
 from dataclasses import replace
 from typing import Any
 
@@ -306,10 +307,17 @@ class Analyst:
         """
         change = check_change(change)
         session = self.session(session_id)
+        if change_id is not None:
+            first = self.store.answered(session_id, change.kind, change.payload, change_id)
+            if first is not None:
+                return first
         base = session.version if base_version is None else base_version
         checked = None
         if base == session.version:
-            self.current(session.with_change(change))
+            first = self._judged(session_id, base, change, change_id,
+                                 lambda: self.current(session.with_change(change)))
+            if first is not None:
+                return first  # the id was answered by another request meanwhile
             # The analysis built the steps as the store's check would (EditEngine.apply
             # raises exactly when build_design does), so the store need not replay them
             # again on this version. A basis choice is not checked by the analysis.
@@ -339,11 +347,35 @@ class Analyst:
         """Undo (delta −1) or redo (+1) as seen at base_version; the target state is
         analysed before the move is saved, as in apply."""
         session = self.session(session_id)
-        base = session.version if base_version is None else base_version
         word = "undo" if delta < 0 else "redo"
+        if change_id is not None:
+            first = self.store.answered(session_id, word, {}, change_id)
+            if first is not None:
+                return first
+        base = session.version if base_version is None else base_version
         if base == session.version:
-            target = session.position + delta
-            if not 0 <= target <= len(session.history):
-                raise InputError(f"there is nothing to {word}", "history")
-            self.current(replace(session, position=target))
+            def target() -> None:
+                to = session.position + delta
+                if not 0 <= to <= len(session.history):
+                    raise InputError(f"there is nothing to {word}", "history")
+                self.current(replace(session, position=to))
+
+            first = self._judged(session_id, base, Change(word, {}), change_id, target)
+            if first is not None:
+                return first
         return self.store.change(session_id, base, word, {}, change_id)
+
+    def _judged(self, session_id: str, base: int, change: Change, change_id: str | None,
+                trial: Callable[[], object]) -> Applied | Conflict | None:
+        """Run the trial of a change on its own base. When it finds the change wrong there
+        (InputError), the refusal is kept under the change id before it is raised, so a
+        retry gets it again even after the session moved on; should the id have been
+        answered by another request meanwhile, that first answer is returned instead.
+        A server fault or a slow analysis is no answer: nothing is kept, a retry tries again."""
+        try:
+            trial()
+        except InputError as e:
+            if change_id is None:
+                raise
+            return self.store.refuse(session_id, base, change.kind, change.payload, change_id, e)
+        return None

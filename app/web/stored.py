@@ -25,6 +25,7 @@ from rankscope.store import (
 from rankscope.store import Change as StoredChange
 from rankscope.store.history import Folded
 from rankscope.store.store import MAX_TITLE
+from rankscope.tables.errors import InputError
 from rankscope.tables.table import Table
 from rankscope.web.access import links
 from rankscope.web.state import Change, PinnedFit, Session
@@ -107,6 +108,17 @@ class StoredSessions:
         return self.db.apply_change(session_id, base_version,
                                     StoredChange(kind, payload, change_id),
                                     checked_on=checked_on)
+
+    def answered(self, session_id: str, kind: str, payload: dict[str, Any], change_id: str
+                 ) -> Applied | Conflict | None:
+        """The first answer to this change id (a refusal is raised), or None."""
+        return self.db.answered(session_id, StoredChange(kind, payload, change_id))
+
+    def refuse(self, session_id: str, base_version: int, kind: str, payload: dict[str, Any],
+               change_id: str, error: InputError) -> Applied | Conflict:
+        """Keep the refusal under the change id and raise it (or give the first answer)."""
+        return self.db.refuse(session_id, base_version, StoredChange(kind, payload, change_id),
+                              error)
 
     def add_pin(self, session_id: str, label: str, fit: dict[str, Any], *, version: int,
                 position: int, columns: list[str], rank: int) -> PinnedFit:
