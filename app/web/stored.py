@@ -42,6 +42,9 @@ def session_check(table: Table, before: Folded, change: StoredChange) -> None:
         replay_check(table, before, change)
     elif change.kind == "step":
         refuse_without_rows(change.payload)
+    elif change.kind == "recipe":
+        for step in change.payload["steps"]:
+            refuse_without_rows(step)
 
 
 def as_session(state: SessionState, source: Source | None = None) -> Session:
