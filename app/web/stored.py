@@ -5,6 +5,7 @@ Translates between rankscope.store records and the web's records; judges and ana
 
 from __future__ import annotations
 
+import contextlib
 import threading
 from pathlib import PurePath
 from typing import Any
@@ -94,8 +95,14 @@ class StoredSessions:
         bytes, kept with the session (its table then has no rows)."""
         title = PurePath(str(filename).replace("\\", "/")).name[:MAX_TITLE] or None
         made = self.db.create_session(data, filename, title=title, table=table, factor=factor)
-        self.db.update_settings(made.session_id, {SEALED: links.seal(
-            self._key, made.session_id, made.edit_token, made.view_token)})
+        try:
+            self.db.update_settings(made.session_id, {SEALED: links.seal(
+                self._key, made.session_id, made.edit_token, made.view_token)})
+        except Exception:
+            # The uploader is told nothing was saved (a full disk, say): so it is not.
+            with contextlib.suppress(Exception):
+                self.db.delete(made.session_id)
+            raise
         state = self.db.load(made.session_id)
         return as_session(state, self._source(state)), made
 

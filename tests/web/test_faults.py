@@ -17,6 +17,7 @@ from fastapi.testclient import TestClient
 
 from rankscope.store import Store
 from rankscope.web.faults import fault_of
+from tests.web.conftest import to_csv, units_table
 
 
 @pytest.mark.parametrize("exc,status", [
@@ -93,3 +94,12 @@ def test_a_bug_is_a_worded_500_with_a_reference(monkeypatch) -> None:
     assert r.status_code == 500
     text = r.json()["error"]
     assert "reference" in text and "ZeroDivisionError" not in text and "division" not in text
+
+
+def test_an_upload_that_cannot_be_finished_leaves_no_session(client: TestClient,
+                                                             monkeypatch) -> None:
+    breaking(monkeypatch, "update_settings", sqlite3.OperationalError("database or disk is full"))
+    r = client.post("/api/upload", files={"file": ("units.csv", to_csv(units_table()),
+                                                   "text/csv")})
+    assert r.status_code == 507, r.text
+    assert client.get("/api/sessions").json() == []  # told "nothing saved": nothing is
