@@ -78,7 +78,8 @@ def ridge_path(F: Factorization, cols: list[int], penalties: np.ndarray) -> Ridg
         beta = b / lengths
         coefs.append(beta)
         if centered:
-            consts.append(float(F.means[-1] - F.means[np.array(cols)] @ beta))
+            # An int index even for no columns (an empty float array cannot index).
+            consts.append(float(F.means[-1] - F.means[np.asarray(cols, dtype=int)] @ beta))
         edf.append(float(shrink.sum()))
         vifs.append((Vt.T**2) @ (f * f))
         rss.append(float(np.sum((g - A @ b) ** 2)))

@@ -7,6 +7,7 @@ from __future__ import annotations
 
 import copy
 import json
+import re
 from collections.abc import Iterable, Iterator
 from typing import Any
 
@@ -19,6 +20,24 @@ from rankscope.tables.table import Table
 
 FORMAT = "rankscope-recipe"
 VERSION = 1
+#: Deepest nesting of brackets a recipe may have. A recipe needs four (the document, its
+#: steps, a step, a list of columns); JSON nested thousands deep would exhaust Python's
+#: recursion while it is read, so it is refused before.
+MAX_DEPTH = 20
+_STRINGS = re.compile(r'"(?:[^"\\]|\\.)*"?')  # never fails, so never backtracks
+_BRACKETS = re.compile(r"[\[\]{}]")
+
+
+def nesting_depth(text: str, limit: int = MAX_DEPTH) -> int:
+    """How deep brackets nest in JSON text, outside strings (counting stops past limit)."""
+    depth = deepest = 0
+    for m in _BRACKETS.finditer(_STRINGS.sub('""', text)):
+        depth += 1 if m.group() in "[{" else -1
+        if depth > deepest:
+            deepest = depth
+            if deepest > limit:
+                break
+    return deepest
 
 
 class Recipe:
@@ -60,6 +79,10 @@ class Recipe:
     @classmethod
     def from_json(cls, text: str) -> Recipe:
         """Read a recipe written by to_json, or a bare JSON list of steps."""
+        if nesting_depth(text) > MAX_DEPTH:
+            raise InputError(f"the recipe nests brackets more than {MAX_DEPTH} deep; a recipe "
+                             "needs four (the file, its steps, a step, a list of columns)",
+                             "recipe", "Choose a recipe file written by rankscope")
         try:
             doc = json.loads(text)
         except json.JSONDecodeError as e:

@@ -87,10 +87,11 @@ def design_csv(design: Design) -> str:
     return "".join(design_csv_chunks(design))
 
 
-def import_recipe(data: str | bytes, table: Table | None = None, source: str = "recipe"
-                  ) -> Recipe:
+def import_recipe(data: str | bytes, table: Table | None = None, source: str = "recipe",
+                  max_steps: int | None = None) -> Recipe:
     """Read a recipe file (as written by recipe_json, or a bare list of steps). With a table,
-    also replay it there, so a step naming a column the table lacks is refused now.
+    also replay it there, so a step naming a column the table lacks is refused now; a
+    recipe of more than max_steps steps is refused before it is replayed.
     Raises InputError naming the file, the step and what to do."""
     if isinstance(data, bytes):
         if len(data) > MAX_RECIPE_BYTES:
@@ -106,6 +107,11 @@ def import_recipe(data: str | bytes, table: Table | None = None, source: str = "
                          "Choose the recipe's .json file")
     try:
         recipe = Recipe.from_json(data)
+        if max_steps is not None and len(recipe) > max_steps:
+            raise InputError(f"the recipe has {len(recipe):,} steps; one import takes at most "
+                             f"{max_steps:,}", "recipe",
+                             f"Split it into files of at most {max_steps:,} steps and import "
+                             "them one after another")
         if table is not None:
             build_design(table, recipe)
     except InputError as e:

@@ -25,6 +25,8 @@ def replay_check(table: Table, before: Folded, change: Change) -> None:
     column the design has now; a ridge penalty was already checked for shape."""
     if change.kind == "step":
         build_design(table, Recipe([*before.steps, change.payload]))
+    elif change.kind == "recipe":  # an import: its steps replayed once, all together
+        build_design(table, Recipe([*before.steps, *change.payload["steps"]]))
     elif change.kind == "keep":
         column = change.payload["column"]
         if column not in build_design(table, before.recipe).columns:

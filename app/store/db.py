@@ -152,10 +152,21 @@ def write(con: sqlite3.Connection) -> Iterator[sqlite3.Connection]:
     con.execute("BEGIN IMMEDIATE")
     try:
         yield con
+        con.execute("COMMIT")  # inside: a commit that fails (a full disk) is rolled back
     except BaseException:
-        con.execute("ROLLBACK")
+        _roll_back(con)
         raise
-    con.execute("COMMIT")
+
+
+def _roll_back(con: sqlite3.Connection) -> None:
+    """End the failed transaction, so the connection serves the next request. SQLite may
+    have rolled it back itself (after a full disk, say); then there is nothing to end, and
+    a failing ROLLBACK must not hide the error that caused it."""
+    if con.in_transaction:
+        try:
+            con.execute("ROLLBACK")
+        except sqlite3.Error:
+            pass
 
 
 @contextmanager

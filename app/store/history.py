@@ -18,7 +18,8 @@ from rankscope.store.records import Entry
 from rankscope.tables.errors import InputError
 
 #: Changes that edit the state; keep and ridge ride in the history so undo walks them too.
-EDIT_KINDS = ("step", "keep", "ridge")
+#: "recipe" is an imported recipe: its steps as one change (one version, one undo).
+EDIT_KINDS = ("step", "recipe", "keep", "ridge")
 #: Changes that move through the edits already made.
 MOVE_KINDS = ("undo", "redo")
 KINDS = EDIT_KINDS + MOVE_KINDS
@@ -28,6 +29,11 @@ KINDS = EDIT_KINDS + MOVE_KINDS
 MAX_ID = 100
 MAX_AUTHOR = 100
 MAX_PAYLOAD = 64_000
+#: Most steps one imported recipe may hold, and the bound on its payload: far more than a
+#: design needs (a step per column and a few more), few enough that the whole import is
+#: replayed well inside the default time budget (30 s) even on a busy machine.
+MAX_IMPORT_STEPS = 1_000
+MAX_IMPORT_PAYLOAD = 400_000
 
 
 @dataclass(frozen=True)
@@ -59,6 +65,14 @@ def _payload(kind: str, payload: Any) -> dict[str, Any]:
         raise InputError(f"the payload must be an object, not {type(payload).__name__}", where)
     if kind == "step":
         return validate_step(payload)
+    if kind == "recipe":
+        steps = payload.get("steps")
+        if set(payload) != {"steps"} or not isinstance(steps, list) or not steps:
+            raise InputError('an imported recipe is {"steps": [step, ...]}', where,
+                             "Send at least one step")
+        if len(steps) > MAX_IMPORT_STEPS:
+            raise InputError(too_many_steps(len(steps)), where, "Import it in parts")
+        return {"steps": [validate_step(s, i) for i, s in enumerate(steps, start=1)]}
     if kind == "keep":
         col = payload.get("column")
         if set(payload) != {"column"} or not isinstance(col, str) or not col.strip():
@@ -80,6 +94,10 @@ def _payload(kind: str, payload: Any) -> dict[str, Any]:
     return {}
 
 
+def too_many_steps(n: int) -> str:
+    return (f"the recipe has {n:,} steps; one import takes at most {MAX_IMPORT_STEPS:,}")
+
+
 def checked(change: Change) -> Change:
     """The change with its payload checked and normalized, and an id. Raises InputError."""
     if change.kind not in KINDS:
@@ -96,8 +114,9 @@ def checked(change: Change) -> Change:
         size = len(canonical(payload).encode())
     except (TypeError, ValueError) as e:
         raise InputError(f"the payload is not plain JSON ({e})", f"{change.kind} change") from e
-    if size > MAX_PAYLOAD:
-        raise InputError(f"the payload is {size:,} bytes, over {MAX_PAYLOAD:,}",
+    bound = MAX_IMPORT_PAYLOAD if change.kind == "recipe" else MAX_PAYLOAD
+    if size > bound:
+        raise InputError(f"the payload is {size:,} bytes, over {bound:,}",
                          f"{change.kind} change", "Send a smaller change")
     return Change(change.kind, payload, cid, author)
 
@@ -112,7 +131,13 @@ class Folded:
 
     @property
     def steps(self) -> list[dict[str, Any]]:
-        return [e.payload for e in self.in_force if e.kind == "step"]
+        out: list[dict[str, Any]] = []
+        for e in self.in_force:
+            if e.kind == "step":
+                out.append(e.payload)
+            elif e.kind == "recipe":
+                out.extend(e.payload["steps"])
+        return out
 
     @property
     def recipe(self) -> Recipe:

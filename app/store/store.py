@@ -16,7 +16,7 @@ from typing import Any
 
 from rankscope.store import changes, db, files, pins, tokens
 from rankscope.store.check import Check, replay_check
-from rankscope.store.history import Change, checked, fold
+from rankscope.store.history import Change, checked, fingerprint, fold
 from rankscope.store.pins import clean_text
 from rankscope.store.records import (
     Applied,
@@ -292,6 +292,42 @@ class Store:
         if isinstance(outcome, changes.Refused):
             raise outcome.error()
         return outcome
+
+    def answered(self, session_id: str, change: Change) -> Applied | Conflict | None:
+        """The final answer already given to this change's id: Applied (repeated) or a
+        Conflict, raised as InputError when it was refused; None when the id is new.
+        An id already used for another change is refused (InputError)."""
+        change = checked(change)
+        assert change.change_id is not None
+        prior = changes.prior_answer(self._con(), session_id, change.change_id)
+        return None if prior is None else self._final(changes.repeat(prior, change))
+
+    def refuse(self, session_id: str, base_version: int, change: Change, error: InputError
+               ) -> Applied | Conflict:
+        """Keep the refusal of a change its caller found wrong on base_version (its analysis
+        failed there, say) under the change id, so every retry is refused in the same words
+        whatever happened since; raises it. When the id was answered in between, that first
+        answer stands and is given instead."""
+        change = checked(change)
+        assert change.change_id is not None
+        with self._lock(session_id):
+            con = self._con()
+            with db.write(con):
+                prior = changes.prior_answer(con, session_id, change.change_id)
+                if prior is None:
+                    refused = changes.Refused(error.what, error.where, error.todo)
+                    changes.remember(con, session_id, changes.current_version(con, session_id),
+                                     base_version, change, refused)
+                    prior = (fingerprint(change), refused)
+        return self._final(changes.repeat(prior, change))
+
+    @staticmethod
+    def _final(answer: Applied | Conflict | changes.Refused) -> Applied | Conflict:
+        if isinstance(answer, changes.Refused):
+            raise answer.error()
+        if isinstance(answer, Applied):
+            return Applied(answer.version, answer.change_id, repeated=True)
+        return answer
 
     def _table_of(self, snap: changes.Snapshot) -> Table:
         return self._table(snap.table_key, snap.filename, snap.kinds, snap.notes)

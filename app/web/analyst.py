@@ -9,6 +9,7 @@ import json
 import logging
 import threading
 import time
+from collections.abc import Callable
 from dataclasses import replace
 from typing import Any
 
@@ -30,6 +31,7 @@ from rankscope.tables.table import Table
 from rankscope.web import refit
 from rankscope.web.analysis import LEVEL_MENU_LIMIT, Analysis, Settings, WorkingColumn
 from rankscope.web.budget import Budget
+from rankscope.web.faults import fault_of, internal_error
 from rankscope.web.recent import Recent, cells
 from rankscope.web.state import Change, PinnedFit, Session, SessionStore
 
@@ -52,6 +54,8 @@ def settings_of(changes: list[Change]) -> Settings:
     for change in changes:
         if change.kind == "step":
             steps.append(json.dumps(change.payload, sort_keys=True))
+        elif change.kind == "recipe":
+            steps.extend(json.dumps(s, sort_keys=True) for s in change.payload["steps"])
         elif change.kind == "keep":
             col = change.payload["column"]
             # "Keep this one instead": the column goes to the front of the priority list.
@@ -65,6 +69,11 @@ def describe_change(change: Change) -> str:
     """A sentence for the history list."""
     if change.kind == "step":
         return describe_step(change.payload)
+    if change.kind == "recipe":
+        steps = change.payload["steps"]
+        first = describe_step(steps[0])
+        return (f"Import a recipe of {len(steps)} step(s): {first}" if len(steps) == 1 else
+                f"Import a recipe of {len(steps)} steps, from: {first}")
     if change.kind == "keep":
         return (f"Keep {quoted(change.payload['column'])} in the basis first, so the "
                 "others are written in terms of it.")
@@ -79,6 +88,9 @@ def check_change(change: Change) -> Change:
     recipe itself when the Recipe is built)."""
     if change.kind == "step":
         Recipe([change.payload])  # raises InputError naming the bad field
+        return change
+    if change.kind == "recipe":
+        Recipe(change.payload.get("steps") or [])
         return change
     if change.kind == "keep":
         col = change.payload.get("column")
@@ -207,12 +219,16 @@ class Analyst:
         except InputError:
             raise
         except Exception as exc:  # noqa: BLE001 - never a 500 for a user's table or step
-            log.exception("analysis of session %s failed", session.session_id)
+            if fault_of(exc) is not None:
+                raise  # the server's own trouble (memory, disk): no verdict on the design
+            ref, _ = internal_error()
+            log.exception("analysis of session %s failed (reference %s)",
+                          session.session_id, ref)
             raise InputError(
-                f"the analysis of this design failed ({type(exc).__name__}: {exc})",
-                session.table.source,
+                f"this design could not be analysed: rankscope failed on it (reference {ref} "
+                "in the server's log)", session.table.source,
                 "Undo the last change; if the table itself fails, please report this with "
-                "the file") from exc
+                "the file and the reference") from exc
 
     def _remember(self, key: tuple[str, int, Settings], result: Analysis) -> None:
         with self._guard:
@@ -306,14 +322,21 @@ class Analyst:
         """
         change = check_change(change)
         session = self.session(session_id)
+        if change_id is not None:
+            first = self.store.answered(session_id, change.kind, change.payload, change_id)
+            if first is not None:
+                return first
         base = session.version if base_version is None else base_version
         checked = None
         if base == session.version:
-            self.current(session.with_change(change))
+            first = self._judged(session_id, base, change, change_id,
+                                 lambda: self.current(session.with_change(change)))
+            if first is not None:
+                return first  # the id was answered by another request meanwhile
             # The analysis built the steps as the store's check would (EditEngine.apply
             # raises exactly when build_design does), so the store need not replay them
             # again on this version. A basis choice is not checked by the analysis.
-            checked = base if change.kind == "step" else None
+            checked = base if change.kind in ("step", "recipe") else None
         return self.store.change(session_id, base, change.kind, change.payload, change_id,
                                  checked)
 
@@ -339,11 +362,35 @@ class Analyst:
         """Undo (delta −1) or redo (+1) as seen at base_version; the target state is
         analysed before the move is saved, as in apply."""
         session = self.session(session_id)
-        base = session.version if base_version is None else base_version
         word = "undo" if delta < 0 else "redo"
+        if change_id is not None:
+            first = self.store.answered(session_id, word, {}, change_id)
+            if first is not None:
+                return first
+        base = session.version if base_version is None else base_version
         if base == session.version:
-            target = session.position + delta
-            if not 0 <= target <= len(session.history):
-                raise InputError(f"there is nothing to {word}", "history")
-            self.current(replace(session, position=target))
+            def target() -> None:
+                to = session.position + delta
+                if not 0 <= to <= len(session.history):
+                    raise InputError(f"there is nothing to {word}", "history")
+                self.current(replace(session, position=to))
+
+            first = self._judged(session_id, base, Change(word, {}), change_id, target)
+            if first is not None:
+                return first
         return self.store.change(session_id, base, word, {}, change_id)
+
+    def _judged(self, session_id: str, base: int, change: Change, change_id: str | None,
+                trial: Callable[[], object]) -> Applied | Conflict | None:
+        """Run the trial of a change on its own base. When it finds the change wrong there
+        (InputError), the refusal is kept under the change id before it is raised, so a
+        retry gets it again even after the session moved on; should the id have been
+        answered by another request meanwhile, that first answer is returned instead.
+        A server fault or a slow analysis is no answer: nothing is kept, a retry tries again."""
+        try:
+            trial()
+        except InputError as e:
+            if change_id is None:
+                raise
+            return self.store.refuse(session_id, base, change.kind, change.payload, change_id, e)
+        return None

@@ -27,6 +27,7 @@ from rankscope.web.access.lanes import RequestThreads
 from rankscope.web.access.limits import Limits
 from rankscope.web.analyst import Analyst, UnknownSession
 from rankscope.web.budget import AnalysisTooSlow, Budget
+from rankscope.web.faults import Faults
 from rankscope.web.live.feed import Hub
 from rankscope.web.rendering.render import STATIC, render
 from rankscope.web.routes import (
@@ -54,7 +55,29 @@ WORDED = {
                  "start page.",
     "Method Not Allowed": "This address does not take this kind of request (method). Use "
                           "the page's controls.",
+    "Invalid multipart data.": (
+        "The upload could not be read: it is not a well-formed form upload (multipart data). "
+        "Upload with the page's button, or send the file as the form field \"file\"."),
 }
+#: The form parser (python-multipart) allows a part's header line 4,096 bytes; a longer one,
+#: almost always a very long file name, is refused before any route sees the file.
+LONG_PART_HEADER = (
+    "The upload could not be read: a header of the form is longer than 4,096 bytes, which "
+    "almost always means the file name is very long. Rename the file to at most 255 "
+    "characters and upload it again.")
+
+
+def _header_too_long(exc: BaseException) -> bool:
+    """Whether the form parser refused a part's header for its length (the cause of its
+    terse "Invalid multipart data.")."""
+    seen: BaseException | None = exc
+    for _ in range(6):
+        if seen is None:
+            return False
+        if "maximum header size" in str(seen).lower():
+            return True
+        seen = seen.__cause__ or seen.__context__
+    return False
 
 
 def _wants_json(request: Request) -> bool:
@@ -116,6 +139,9 @@ def create_app(store: Store | None = None, *, share: bool = False,
     # Added last, so it runs first: a request for another host never reaches a token check.
     # (The state, not the app, in the closure: no cycle keeps a throwaway store alive.)
     state = app.state
+    # Inside the guard (its headers go on every answer), around everything else: a full
+    # disk or a bug anywhere below is a worded 507/503/500, never a bare one.
+    app.add_middleware(Faults, page=lambda text, status: pages.message_page(text, status).body)
     app.add_middleware(Guard, hosts=lambda: state.allowed_hosts)
     app.mount("/static", StaticFiles(directory=str(STATIC)), name="static")
     app.include_router(assets.router)
@@ -149,6 +175,8 @@ def create_app(store: Store | None = None, *, share: bool = False,
         # Starlette's own refusals (unknown address, wrong method, a body that does not
         # parse) in the same {"error": ...} shape as every other refusal.
         text = WORDED.get(str(exc.detail), str(exc.detail))
+        if _header_too_long(exc):
+            text = LONG_PART_HEADER
         if _wants_json(request):
             return JSONResponse({"error": text}, status_code=exc.status_code,
                                 headers=exc.headers)

@@ -11,6 +11,7 @@ from typing import Any, Protocol
 
 from rankscope.scale.sources import RowsSource, Source
 from rankscope.store.records import Applied, Conflict, Created
+from rankscope.tables.errors import InputError
 from rankscope.tables.table import Table
 
 #: What a history entry can change. "step" carries a recipe step; "keep" and "ridge"
@@ -103,6 +104,12 @@ class SessionStore(Protocol):
     def change(self, session_id: str, base_version: int, kind: str, payload: dict[str, Any],
                change_id: str | None, checked_on: int | None = None
                ) -> Applied | Conflict: ...
+
+    def answered(self, session_id: str, kind: str, payload: dict[str, Any], change_id: str
+                 ) -> Applied | Conflict | None: ...
+
+    def refuse(self, session_id: str, base_version: int, kind: str, payload: dict[str, Any],
+               change_id: str, error: InputError) -> Applied | Conflict: ...
 
     def add_pin(self, session_id: str, label: str, fit: dict[str, Any], *, version: int,
                 position: int, columns: list[str], rank: int) -> PinnedFit: ...

@@ -5,6 +5,7 @@ Translates between rankscope.store records and the web's records; judges and ana
 
 from __future__ import annotations
 
+import contextlib
 import threading
 from pathlib import PurePath
 from typing import Any
@@ -25,6 +26,7 @@ from rankscope.store import (
 from rankscope.store import Change as StoredChange
 from rankscope.store.history import Folded
 from rankscope.store.store import MAX_TITLE
+from rankscope.tables.errors import InputError
 from rankscope.tables.table import Table
 from rankscope.web.access import links
 from rankscope.web.state import Change, PinnedFit, Session
@@ -41,6 +43,9 @@ def session_check(table: Table, before: Folded, change: StoredChange) -> None:
         replay_check(table, before, change)
     elif change.kind == "step":
         refuse_without_rows(change.payload)
+    elif change.kind == "recipe":
+        for step in change.payload["steps"]:
+            refuse_without_rows(step)
 
 
 def as_session(state: SessionState, source: Source | None = None) -> Session:
@@ -90,8 +95,14 @@ class StoredSessions:
         bytes, kept with the session (its table then has no rows)."""
         title = PurePath(str(filename).replace("\\", "/")).name[:MAX_TITLE] or None
         made = self.db.create_session(data, filename, title=title, table=table, factor=factor)
-        self.db.update_settings(made.session_id, {SEALED: links.seal(
-            self._key, made.session_id, made.edit_token, made.view_token)})
+        try:
+            self.db.update_settings(made.session_id, {SEALED: links.seal(
+                self._key, made.session_id, made.edit_token, made.view_token)})
+        except Exception:
+            # The uploader is told nothing was saved (a full disk, say): so it is not.
+            with contextlib.suppress(Exception):
+                self.db.delete(made.session_id)
+            raise
         state = self.db.load(made.session_id)
         return as_session(state, self._source(state)), made
 
@@ -107,6 +118,17 @@ class StoredSessions:
         return self.db.apply_change(session_id, base_version,
                                     StoredChange(kind, payload, change_id),
                                     checked_on=checked_on)
+
+    def answered(self, session_id: str, kind: str, payload: dict[str, Any], change_id: str
+                 ) -> Applied | Conflict | None:
+        """The first answer to this change id (a refusal is raised), or None."""
+        return self.db.answered(session_id, StoredChange(kind, payload, change_id))
+
+    def refuse(self, session_id: str, base_version: int, kind: str, payload: dict[str, Any],
+               change_id: str, error: InputError) -> Applied | Conflict:
+        """Keep the refusal under the change id and raise it (or give the first answer)."""
+        return self.db.refuse(session_id, base_version, StoredChange(kind, payload, change_id),
+                              error)
 
     def add_pin(self, session_id: str, label: str, fit: dict[str, Any], *, version: int,
                 position: int, columns: list[str], rank: int) -> PinnedFit:

@@ -155,6 +155,26 @@ def test_refusals_are_final_for_their_id(store: Store) -> None:
     assert [e.change_id for e in store.load(sid).history] == ["alice", "carol", "erin"]
 
 
+def test_a_refusal_made_outside_the_store_is_kept_for_its_id(store: Store) -> None:
+    sid = store.create_session(csv_bytes(7), "t.csv").session_id
+    assert store.answered(sid, step("drop", "a", "frank")) is None
+    # The caller (the web analysis) found the change wrong on version 0 and says so.
+    with pytest.raises(InputError, match="cannot be analysed") as first:
+        store.refuse(sid, 0, step("drop", "a", "frank"), InputError("cannot be analysed"))
+    store.apply_change(sid, 0, step("drop", "b", "gina"))
+    # Reference: "at most once, same answer": the retry is refused in the same words even
+    # though the drop would be saved on top of version 1 now, and nothing is saved.
+    for ask in (lambda: store.answered(sid, step("drop", "a", "frank")),
+                lambda: store.apply_change(sid, 0, step("drop", "a", "frank"))):
+        with pytest.raises(InputError) as again:
+            ask()
+        assert again.value.message == first.value.message
+    assert [e.change_id for e in store.load(sid).history] == ["gina"]
+    # A saved id keeps its first answer too: a later refusal cannot replace it.
+    assert store.refuse(sid, 1, step("drop", "b", "gina"), InputError("no")) == \
+        Applied(1, "gina", repeated=True)
+
+
 def test_stale_change_applied_on_top_when_it_still_applies(store: Store) -> None:
     sid = store.create_session(csv_bytes(8), "t.csv").session_id
     assert store.apply_change(sid, 0, step("drop", "a", "alice")) == Applied(1, "alice")

@@ -58,6 +58,12 @@ def client() -> TestClient:
     return TestClient(create_app())
 
 
+@pytest.fixture(scope="module")
+def app_client() -> TestClient:
+    """One app for a module's many examples (fuzz), with server errors as answers."""
+    return TestClient(create_app(), raise_server_exceptions=False)
+
+
 @pytest.fixture()
 def table() -> dict:
     return units_table()

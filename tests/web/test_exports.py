@@ -13,6 +13,7 @@ import io
 import json
 import os
 import re
+import time
 
 import numpy as np
 import pytest
@@ -108,13 +109,15 @@ def test_recipe_download_imports_into_a_new_session(client, edited, table) -> No
     assert r.json()["imported"] == len(doc["steps"])
     # Reference: the first session's recipe, step for step.
     assert recipe_of(client, fresh) == doc["steps"]
-    # Each step is its own change: one undo takes back the last one only.
+    # The import is one change (one version): one undo takes it all back.
+    assert r.json()["version"] == 1
     assert client.post(f"/api/s/{fresh}/undo").status_code == 200
-    assert recipe_of(client, fresh) == doc["steps"][:-1]
+    assert recipe_of(client, fresh) == []
     # The same import sent again (a retry after a lost answer) saves nothing twice.
-    assert send().status_code == 200
+    again = send()
+    assert again.status_code == 200 and again.json()["imported"] == len(doc["steps"])
     ids = [e["change_id"] for e in client.get(f"/api/s/{fresh}/history").json()["entries"]]
-    assert len(ids) == len(set(ids)) == len(doc["steps"]) + 1
+    assert ids[0] == "imp-1" and len(ids) == len(set(ids)) == 2
 
 
 @pytest.mark.parametrize("name,data,found", [
@@ -153,11 +156,42 @@ def test_import_on_an_old_version_that_no_longer_fits_is_a_conflict(client, sid)
                        {"step": "drop", "column": "hours"}]).encode()
     r = client.post(f"/api/s/{sid}/recipe", files={"file": ("r.json", data, "application/json")},
                     data={"base_version": str(v), "import_id": "late"})
-    # Reference: RFC 9110 §15.5.10; the message says how much was saved.
+    # Reference: RFC 9110 §15.5.10; the import is one change, so none of it is saved.
     assert r.status_code == 409, r.text
-    assert r.json()["imported"] == 1 and "1 of 2" in r.json()["error"]
+    assert r.json()["imported"] == 0 and "None of the 2" in r.json()["error"]
     entries = client.get(f"/api/s/{sid}/history").json()["entries"]
-    assert [e["change_id"] for e in entries][-1] == "late:0"
+    assert "late" not in [e["change_id"] for e in entries]
+
+
+def test_a_recipe_over_the_step_limit_is_refused_at_once(client, sid) -> None:
+    before = client.get(f"/api/s/{sid}/history").json()
+    steps = [{"step": "center", "column": "hours"}] * 25_000  # under the 1 MB file cap
+    data = json.dumps(steps).encode()
+    assert len(data) < 1_000_000
+    started = time.perf_counter()
+    r = client.post(f"/api/s/{sid}/recipe", files={"file": ("long.json", data, "application/json")})
+    seconds = time.perf_counter() - started
+    assert r.status_code == 400, r.text  # RFC 9110 §15.5.1
+    text = r.json()["error"]
+    assert "25,000 steps" in text and "at most 1,000" in text and "long.json" in text
+    # Refused before any step is replayed (the old import replayed 2,000 steps in minutes);
+    # a generous bound, as the machine may be busy.
+    assert seconds < 10, seconds
+    assert client.get(f"/api/s/{sid}/history").json() == before
+
+
+def test_a_recipe_at_the_step_limit_is_one_version(client, sid) -> None:
+    v = client.get(f"/api/s/{sid}/history").json()["version"]
+    steps = [{"step": "response", "column": "load"}] * 1000  # the same choice, again and again
+    data = json.dumps(steps).encode()
+    r = client.post(f"/api/s/{sid}/recipe", files={"file": ("full.json", data, "application/json")},
+                    data={"import_id": "at-limit"})
+    assert r.status_code == 200, r.text
+    assert r.json()["imported"] == 1000 and r.json()["version"] == v + 1
+    h = client.get(f"/api/s/{sid}/history").json()
+    # Reference: the store's history: one entry for the import, holding every step.
+    assert [e["change_id"] for e in h["entries"]][-1] == "at-limit"
+    assert h["recipe"][-1000:] == steps
 
 
 def test_unknown_download_is_a_client_error(client, sid) -> None:

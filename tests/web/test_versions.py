@@ -126,3 +126,33 @@ def test_a_saved_state_that_no_longer_analyses_can_still_be_walked_back(tmp_path
     r = client.post(f"/api/s/{sid}/undo", json={"base_version": 2, "change_id": "back"})
     assert r.status_code == 200 and 'id="stuck-message"' not in r.json()["html"]
     store.close()
+
+
+def test_a_refused_change_stays_refused_after_the_session_moves_on(client, sid) -> None:
+    v = history(client, sid)["version"]
+    drop = {"step": "drop", "column": "mass_sum"}
+    first = change(client, sid, drop, v, "early-drop")
+    # No such column yet: wrong on the very state its sender saw (RFC 9110 §15.5.1).
+    assert first.status_code == 400, first.text
+    made = {"step": "combine", "columns": ["mass_lb", "mass_kg"], "method": "sum",
+            "name": "mass_sum"}
+    assert change(client, sid, made, v, "makes-it").status_code == 200
+    # The retry (same id, same base) would fit now, but its answer was given: the same 400.
+    retry = change(client, sid, drop, v, "early-drop")
+    assert retry.status_code == 400 and retry.json() == first.json()
+    h = history(client, sid)
+    assert drop not in h["recipe"] and h["version"] == v + 1
+    assert "early-drop" not in [e["change_id"] for e in h["entries"]]
+
+
+def test_a_refused_redo_is_refused_again_in_the_same_words(client, sid) -> None:
+    v = history(client, sid)["version"]
+    first = client.post(f"/api/s/{sid}/redo", json={"base_version": v, "change_id": "r1"})
+    assert first.status_code == 400 and "nothing to redo" in first.json()["error"]
+    step(client, sid, {"step": "drop", "column": "temp_f"})
+    assert client.post(f"/api/s/{sid}/undo", json={"base_version": v + 1}).status_code == 200
+    # Now there is something to redo, and the retry's base is old: still the first answer,
+    # not a 409 and not a redo.
+    retry = client.post(f"/api/s/{sid}/redo", json={"base_version": v, "change_id": "r1"})
+    assert retry.status_code == 400 and retry.json() == first.json()
+    assert history(client, sid)["version"] == v + 2

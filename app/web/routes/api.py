@@ -22,6 +22,7 @@ from rankscope.web.access.gate import COOKIE_SECONDS, can_edit, cookie_name
 from rankscope.web.access.limits import Limits
 from rankscope.web.analyst import Analyst, UnknownSession, settings_of
 from rankscope.web.budget import AnalysisTooSlow
+from rankscope.web.faults import fault_of, internal_error
 from rankscope.web.live.feed import Hub
 from rankscope.web.rendering.render import current_html
 from rankscope.web.rendering.views import plain
@@ -47,16 +48,23 @@ def live_of(request: Request) -> Hub:
 
 def guarded(what: str, fn: Callable[..., T], *args: Any) -> T:
     """Run fn; a failure the readers, recipe or core did not word still becomes a message
-    (and the session is unchanged, as the Analyst stores only what succeeded)."""
+    (and the session is unchanged, as the Analyst stores only what succeeded). A fault of
+    the server itself (a full disk, say) is passed on: it is answered 507/503 (faults.py),
+    not blamed on the user's file or step."""
     try:
         return fn(*args)
     except (InputError, UnknownSession, SessionNotFound, AnalysisTooSlow):
         raise
     except Exception as exc:  # noqa: BLE001 - never a 500 for a user's file or step
-        log.exception("%s failed", what)
-        raise InputError(f"{what} failed ({type(exc).__name__}: {exc})", "",
-                         "Nothing in the session was changed; please report this with the "
-                         "file") from exc
+        if fault_of(exc) is not None:
+            raise
+        ref, _ = internal_error()
+        log.exception("%s failed (reference %s)", what, ref)
+        raise InputError(f"{what} could not be done: rankscope failed on it (reference {ref} "
+                         "in the server's log)", "",
+                         "Nothing in the session was changed. Try another way (another "
+                         "step, or fewer at once); please report this with the file and the "
+                         "reference") from exc
 
 
 def state_of(request: Request, session: Session) -> dict[str, Any]:

@@ -10,7 +10,6 @@ from fastapi import APIRouter, Body, File, Form, Request, UploadFile
 from fastapi.responses import JSONResponse, StreamingResponse
 
 from rankscope.report.export import MAX_RECIPE_BYTES
-from rankscope.tables.errors import InputError
 from rankscope.web.access import links
 from rankscope.web.access.bodies import sound_text
 from rankscope.web.access.gate import can_edit, cookie_name, role_of, token_of
@@ -97,7 +96,7 @@ async def events(request: Request, session_id: str) -> StreamingResponse:
 def import_recipe(request: Request, session_id: str, file: Annotated[UploadFile, File()],
                   base_version: Annotated[int | None, Form()] = None,
                   import_id: Annotated[str | None, Form()] = None) -> JSONResponse:
-    """Import a recipe JSON file: its steps are added as step changes (see app/web/recipes.py)."""
+    """Import a recipe JSON file: its steps are added as one change (see app/web/recipes.py)."""
     name = file.filename or "recipe.json"
     data = file.file.read(MAX_RECIPE_BYTES + 1)
     done = guarded(f"importing {name}", import_steps, analyst_of(request), session_id, data,
@@ -109,8 +108,5 @@ def import_recipe(request: Request, session_id: str, file: Annotated[UploadFile,
     if done.refusal is None:
         body["message"] = f"Imported {done.saved} step(s) from {name}."
         return JSONResponse(body)
-    text = (f"{done.saved} of {done.total} step(s) from {name} were saved; the rest were not: "
-            f"{done.refusal}")
-    if not done.conflict:
-        raise InputError(text, name, "Look at the current state, then import what is missing")
+    text = f"None of the {done.total} step(s) from {name} were saved: {done.refusal}"
     return JSONResponse({**body, "error": text, "conflict": True}, status_code=409)
