@@ -81,11 +81,12 @@ class HeldTables:
         if found is not None:
             return found
         table = load()
+        read = _Held(table, size_of(table))  # counted outside the lock
         with self._guard:
             found = self._find(key, name)  # another thread may have read it meanwhile
             if found is not None:
                 return found
-            self._admit(key, _Held(table, size_of(table)))
+            self._admit(key, read)
             return self._named(key, name)
 
     def forget(self, key: str) -> None:

@@ -10,6 +10,8 @@ from __future__ import annotations
 
 import gc
 import os
+import threading
+from concurrent.futures import ThreadPoolExecutor
 from pathlib import Path
 
 import numpy as np
@@ -118,3 +120,18 @@ def test_every_budget_serves_the_table_asked_for(budget: int) -> None:
     for key, seed in [("A", 1), ("B", 2), ("A", 1)]:
         table = held.get(key, f"{key}.csv", loads(key, seed))
         pd.testing.assert_frame_equal(table.frame, random_table(seed).frame)
+
+
+def test_threads_asking_at_once_get_one_copy() -> None:
+    held = HeldTables()
+    loads = Loads()
+    start = threading.Barrier(8)
+
+    def ask(i: int) -> Table:
+        start.wait()
+        return held.get("A", f"name{i % 2}.csv", loads("A", 1))
+
+    with ThreadPoolExecutor(8) as pool:
+        tables = list(pool.map(ask, range(8)))
+    assert len({id(t.frame) for t in tables}) == 1 and len(held) == 1
+    assert len({id(t) for t in tables}) == 2  # one Table per file name
