@@ -58,7 +58,7 @@ class HeldTables:
 
     The same Table object comes back for the same content and file name while it is held,
     or while anyone still uses it after it was dropped (a weak map finds it), so callers
-    may cache results by it and no content is ever in memory twice. Thread-safe.
+    may cache results by it, and a content is held once whatever its names. Thread-safe.
     """
 
     def __init__(self, budget: int | None = None) -> None:
