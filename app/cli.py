@@ -354,6 +354,14 @@ def serve_limits(args: argparse.Namespace) -> Any:
     return replace(limits, **{fields[f][0]: fields[f][1](v) for f, v in given.items()})
 
 
+def table_memory(mb: float) -> int:
+    """The bytes of --table-memory-mb; refuses senseless values."""
+    if not math.isfinite(mb) or mb <= 0:
+        raise InputError(f"--table-memory-mb must be a positive number, not {mb:g}", "",
+                         "Give the megabytes of tables to hold in memory, e.g. 2000")
+    return int(mb * 1_000_000)
+
+
 def run_serve(args: argparse.Namespace) -> int:
     if args.engine == "dask":
         if args.file is None or not Path(args.file).is_dir():
@@ -393,6 +401,8 @@ def run_serve(args: argparse.Namespace) -> int:
         extra["limits"] = limits
     if args.host_name:
         extra["host_names"] = list(args.host_name)
+    if args.table_memory_mb is not None:
+        extra["table_memory"] = table_memory(args.table_memory_mb)
     run(args.file, host=host, port=args.port, open_browser=not args.no_browser, **extra)
     return EXIT_OK
 
@@ -457,6 +467,12 @@ def build_parser() -> Parser:
     serve.add_argument("--data-dir", metavar="DIR", default=None,
                        help="folder that keeps the sessions (default ~/.rankscope, or "
                             "$RANKSCOPE_HOME)")
+    serve.add_argument("--table-memory-mb", metavar="MB", type=float, default=None,
+                       help="how many MB of uploaded tables to hold in memory between "
+                            "requests, one copy per content whatever its file name; the "
+                            "least recently used go first, and the table in use is held "
+                            "whatever its size (default: an eighth of this computer's "
+                            "memory)")
     serve.add_argument("--share", action="store_true",
                        help="listen on the local network and print share links; every "
                             "request then needs a link's key")

@@ -37,6 +37,15 @@ EDIT_CYCLE: tuple[tuple[str, dict[str, Any]], ...] = (
 KEEP_FAILURES = 10
 
 
+def distinct_table(table: bytes, k: int) -> tuple[str, bytes]:
+    """User k's own file: the table without its data row k (modulo the row count), under
+    its own name, so every user's content and name differ (as in a team, each with their
+    own file); every change of EDIT_CYCLE stays valid on it."""
+    header, *rows = table.splitlines(keepends=True)
+    del rows[k % len(rows)]
+    return f"{DEMO.stem}_user{k}{DEMO.suffix}", b"".join([header, *rows])
+
+
 @dataclass
 class Recorder:
     """Every request's sample, and the first few failures in words. Shared by the user
@@ -65,23 +74,24 @@ class Recorder:
 
 
 def guarded_user(url: str, name: str, table: bytes, deadline: float, rec: Recorder,
-                 think: float = 0.0) -> None:
+                 think: float = 0.0, filename: str = DEMO.name) -> None:
     """virtual_user, with anything unexpected (an answer that is not the JSON it should
     be) counted as an error of kind "client" instead of silently ending the thread."""
     try:
-        virtual_user(url, name, table, deadline, rec, think)
+        virtual_user(url, name, table, deadline, rec, think, filename)
     except Exception as exc:  # noqa: BLE001 - every failure must reach the table
         rec.samples.append(Sample("client", 0.0, None))
         rec.note(f"client {name}: {type(exc).__name__}: {exc}")
 
 
 def virtual_user(url: str, name: str, table: bytes, deadline: float, rec: Recorder,
-                 think: float = 0.0) -> None:
-    """Upload, open, then edit and read until the deadline (think: seconds of pause
-    between requests, as a person reads the page; 0 drives the server flat out)."""
+                 think: float = 0.0, filename: str = DEMO.name) -> None:
+    """Upload table as filename, open, then edit and read until the deadline (think:
+    seconds of pause between requests, as a person reads the page; 0 drives the server
+    flat out)."""
     with httpx.Client(base_url=url, timeout=60) as client:
         r = rec.timed("upload", lambda: client.post(
-            "/api/upload", files={"file": (DEMO.name, table, "text/csv")}))
+            "/api/upload", files={"file": (filename, table, "text/csv")}))
         if r is None or r.status_code != 201:
             return  # recorded as an error; there is no session to go on with
         sid = r.json()["session"]

@@ -10,12 +10,12 @@ import os
 import sqlite3
 import threading
 import time
-from collections import OrderedDict
 from pathlib import Path, PurePath
 from typing import Any
 
 from rankscope.store import changes, db, files, pins, tokens
 from rankscope.store.check import Check, replay_check
+from rankscope.store.held import HeldTables
 from rankscope.store.history import Change, checked, fingerprint, fold
 from rankscope.store.pins import clean_text
 from rankscope.store.records import (
@@ -53,10 +53,12 @@ class Store:
     may open the same folder (SQLite's locks keep them apart).
     check: decides whether an edit makes sense on the state it would land on (default:
     the recipe replays on the table).
+    table_memory: bytes of tables kept in memory between requests, one copy per content
+    whatever its file name (default: an eighth of the computer's memory; see held.py).
     """
 
     def __init__(self, root: str | os.PathLike | None = None, *, check: Check = replay_check,
-                 cached_tables: int = 4) -> None:
+                 table_memory: int | None = None) -> None:
         self.root = Path(root) if root is not None else default_root()
         self.tables_dir = self.root / "tables"
         self.db_path = self.root / DB_NAME
@@ -72,8 +74,7 @@ class Store:
         self._connections: list[sqlite3.Connection] = []
         self._guard = threading.Lock()
         self._session_locks: dict[str, threading.Lock] = {}
-        self._tables: OrderedDict[tuple[str, str], Table] = OrderedDict()
-        self._cached_tables = cached_tables
+        self.tables = HeldTables(table_memory)
         db.ensure_schema(self._con(), self.db_path)
 
     # -- plumbing ------------------------------------------------------------------------
@@ -106,25 +107,11 @@ class Store:
             return self._session_locks.setdefault(session_id, threading.Lock())
 
     def _table(self, key: str, filename: str, kinds: dict[str, str], notes: list[str]) -> Table:
-        """The saved table, from a small cache: the file never changes once written, and the
-        same Table object for the same session lets callers cache results by it."""
-        with self._guard:
-            hit = self._tables.get((key, filename))
-            if hit is not None:
-                self._tables.move_to_end((key, filename))
-                return hit
-        table = files.read_table_file(files.path_of(self.tables_dir, key), kinds, filename,
-                                      notes)
-        with self._guard:
-            table = self._tables.setdefault((key, filename), table)
-            while len(self._tables) > self._cached_tables:
-                self._tables.popitem(last=False)
-        return table
-
-    def _forget_table(self, key: str) -> None:
-        with self._guard:
-            for k in [k for k in self._tables if k[0] == key]:
-                del self._tables[k]
+        """The saved table, held in memory by content (the file never changes once
+        written); the same Table object for the same session lets callers cache results
+        by it."""
+        return self.tables.get(key, filename, lambda: files.read_table_file(
+            files.path_of(self.tables_dir, key), kinds, filename, notes))
 
     # -- sessions ------------------------------------------------------------------------
 
@@ -222,7 +209,7 @@ class Store:
             self._session_locks.pop(session_id, None)
         if moved is not None:
             moved.unlink(missing_ok=True)
-            self._forget_table(key or "")
+            self.tables.forget(key or "")
 
     def stamp(self, session_id: str) -> tuple[int, float] | None:
         """(version, time of the last change of any kind) or None when there is no such

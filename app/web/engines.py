@@ -23,10 +23,13 @@ from rankscope.web.stored import session_check
 OnDone = Callable[[Session, Created], None]
 
 
-def open_store(data_dir: str | os.PathLike | None = None) -> Store:
+def open_store(data_dir: str | os.PathLike | None = None, table_memory: int | None = None
+               ) -> Store:
     """The session store in data_dir (default ~/.rankscope), with the check every source
-    shares (a session without rows takes only the steps its factor can)."""
-    return Store(data_dir if data_dir is not None else default_root(), check=session_check)
+    shares (a session without rows takes only the steps its factor can); table_memory:
+    bytes of tables it holds in memory (default: see rankscope.store.held)."""
+    return Store(data_dir if data_dir is not None else default_root(), check=session_check,
+                 table_memory=table_memory)
 
 
 def create_dask_app(folder: str | os.PathLike, response: str | None,

@@ -83,7 +83,7 @@ def run(path: str | os.PathLike | None, host: str = "127.0.0.1", port: int = 876
         open_browser: bool = True, *, data_dir: str | os.PathLike | None = None,
         share: bool = False, engine: str = "memory", scheduler: str | None = None,
         response: str | None = None, limits: Limits | None = None,
-        host_names: list[str] | None = None) -> None:
+        host_names: list[str] | None = None, table_memory: int | None = None) -> None:
     """Serve the app with sessions kept in data_dir (default ~/.rankscope). With a path,
     read it first (an InputError is raised before anything is saved or listens) and open
     it as a new session. share, or any address beyond this computer, makes every request
@@ -94,7 +94,9 @@ def run(path: str | os.PathLike | None, host: str = "127.0.0.1", port: int = 876
     (/reducing, with a Cancel button); the session opens when it is done. limits: upload
     size, table shape and analysis time (default: Limits()), also applied to path.
     host_names: further names (without port) the server answers to, beyond loopback, the
-    bind address and the printed address; any other Host header is refused."""
+    bind address and the printed address; any other Host header is refused. table_memory:
+    bytes of uploaded tables held in memory between requests (default: an eighth of the
+    computer's memory; see rankscope.store.held)."""
     limits = limits or Limits()
     table = data = None
     if path is not None and engine not in ("dask", "stream"):
@@ -118,7 +120,7 @@ def run(path: str | os.PathLike | None, host: str = "127.0.0.1", port: int = 876
                                 public_url=public_url, on_done=_announce(base, share))
         store = app.state.sessions.db
     else:
-        store = open_store(data_dir)
+        store = open_store(data_dir, table_memory)
         app = create_app(store, share=share, public_url=public_url, limits=limits)
     app.state.allowed_hosts = hosts_for(host, port, reachable_host(host),
                                         *(host_names or ()))  # DNS rebinding

@@ -65,3 +65,14 @@ def test_data_dir_and_share(full_calls: list[dict], tmp_path) -> None:
     assert run("serve").code == 0
     assert full_calls[-1] == {"path": None, "host": "127.0.0.1", "port": 8000,
                               "open_browser": True}
+
+
+def test_table_memory_in_megabytes(full_calls: list[dict]) -> None:
+    # Reference: docs/cli.md: --table-memory-mb in decimal MB, as --max-upload-mb.
+    assert run("serve", "--table-memory-mb", "250").code == 0
+    assert full_calls[-1]["table_memory"] == 250_000_000
+    for bad in ("0", "-5", "nan"):
+        r = run("serve", "--table-memory-mb", bad)
+        assert r.code == 2 and "--table-memory-mb" in r.err and len(r.err.splitlines()) == 1
+    assert len(full_calls) == 1
+    assert "--table-memory-mb" in run("serve", "--help").out
