@@ -21,7 +21,7 @@ from urllib.parse import parse_qs, urlsplit
 import httpx
 import pytest
 
-from rankscope.web.access.connections import HEADER_SECONDS, Caps
+from rankscope.web.access.connections import BODY_SECONDS, HEADER_SECONDS, Caps
 from tests.web.conftest import to_csv, units_table
 
 pytestmark = pytest.mark.skipif(not sys.platform.startswith("linux"),
@@ -137,20 +137,85 @@ def test_idle_flood_never_shuts_out_a_keyed_request(serve, tmp_path) -> None:
     assert server.proc.poll() is None
 
 
-def test_a_request_that_stalls_in_its_headers_is_closed(serve, tmp_path) -> None:
+def read_answer(s: socket.socket) -> bytes:
+    """One answer with a Content-Length from a raw socket: its head and body (RFC 9112 §6)."""
+    data = b""
+    while b"\r\n\r\n" not in data:
+        got = s.recv(65536)
+        assert got, "closed before the answer"
+        data += got
+    head, _, body = data.partition(b"\r\n\r\n")
+    length = int(next(line.split(b":")[1] for line in head.split(b"\r\n")
+                      if line.lower().startswith(b"content-length:")))
+    while len(body) < length:
+        got = s.recv(65536)
+        assert got, "closed inside the answer"
+        body += got
+    return head
+
+
+def closed_after(s: socket.socket, started: float) -> float:
+    """Seconds from started until the server closed s without an answer (recv sees the end)."""
+    assert s.recv(4096) == b""
+    return time.monotonic() - started
+
+
+def test_stalled_headers_and_trickling_bodies_are_closed_busy_clients_are_not(
+        serve, tmp_path) -> None:
     server, sid, edit = share(serve, tmp_path)
-    with socket.create_connection(("127.0.0.1", server.port), timeout=HEADER_SECONDS + 5) as s:
-        s.sendall(PARTIAL)
-        sent = time.monotonic()
-        # The server closes it without an answer: recv sees the end of the stream.
-        assert s.recv(4096) == b""
-        waited = time.monotonic() - sent
-    # The deadline, give or take the once-a-second sweep.
-    assert HEADER_SECONDS - 0.5 < waited < HEADER_SECONDS + 2.5, waited
-    # A keyed request that sends its headers at once is answered as usual.
-    r = httpx.get(f"{server.url}/api/s/{sid}/history", headers={"X-Rankscope-Token": edit},
-                  timeout=10)
-    assert r.status_code == 200
+    printed = len(server.lines)
+    results: dict[str, float | Exception] = {}
+
+    def stalled_headers() -> None:
+        with socket.create_connection(("127.0.0.1", server.port), timeout=60) as s:
+            s.sendall(PARTIAL)
+            results["headers"] = closed_after(s, time.monotonic())
+
+    def trickling_body() -> None:
+        with socket.create_connection(("127.0.0.1", server.port), timeout=60) as s:
+            s.sendall(f"POST /api/s/{sid}/title HTTP/1.1\r\nHost: 127.0.0.1:{server.port}\r\n"
+                      f"X-Rankscope-Token: {edit}\r\nContent-Type: application/json\r\n"
+                      f"Content-Length: 200\r\n\r\n{{".encode())
+            started = time.monotonic()
+            s.settimeout(2)
+            while True:  # a byte every two seconds: far below the body's minimum rate
+                try:
+                    if s.recv(4096) == b"":
+                        results["body"] = time.monotonic() - started
+                        return
+                except TimeoutError:
+                    s.sendall(b" ")
+
+    def kept_alive() -> None:
+        # One connection, a request every 1.5 s for longer than the header deadline: each
+        # request's headers come at once, so none of them is late (RFC 9112 §9.3).
+        with socket.create_connection(("127.0.0.1", server.port), timeout=10) as s:
+            for _ in range(5):
+                s.sendall(f"GET /api/s/{sid}/history HTTP/1.1\r\nHost: 127.0.0.1:{server.port}\r\n"
+                          f"X-Rankscope-Token: {edit}\r\n\r\n".encode())
+                assert read_answer(s).startswith(b"HTTP/1.1 200")
+                time.sleep(1.5)
+            results["kept"] = 1.0
+
+    def run(job) -> None:
+        try:
+            job()
+        except Exception as e:  # noqa: BLE001 - reported by the main thread below
+            results[job.__name__] = e
+
+    threads = [threading.Thread(target=run, args=(job,)) for job in
+               (stalled_headers, trickling_body, kept_alive)]
+    for t in threads:
+        t.start()
+    for t in threads:
+        t.join(60)
+    assert all(not isinstance(v, Exception) for v in results.values()), results
+    # The deadlines, give or take the once-a-second sweep.
+    assert HEADER_SECONDS - 0.5 < results["headers"] < HEADER_SECONDS + 2.5, results
+    assert BODY_SECONDS - 0.5 < results["body"] < BODY_SECONDS + 3.5, results
+    assert results["kept"] == 1.0
+    said = server.lines[printed:]
+    assert not any("Traceback" in line for line in said), "\n".join(said)
 
 
 def test_open_file_limit_is_raised_to_the_hard_limit(serve, tmp_path) -> None:
