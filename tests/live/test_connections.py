@@ -21,7 +21,7 @@ from urllib.parse import parse_qs, urlsplit
 import httpx
 import pytest
 
-from rankscope.web.access.connections import BODY_SECONDS, HEADER_SECONDS, Caps
+from rankscope.web.access.connections import BODY_SECONDS, HEADER_SECONDS, ROUNDS, Caps
 from tests.web.conftest import to_csv, units_table
 
 pytestmark = pytest.mark.skipif(not sys.platform.startswith("linux"),
@@ -32,6 +32,8 @@ LOW_FILES = 256
 #: Idle connections in the flood: what shut out every request before (about 1,100 from one
 #: address against the common limit of 1,024), and over four times LOW_FILES.
 FLOOD = 1100
+#: New idle connections a second while keyed requests are timed (each closes an older one).
+CHURN = 200
 #: A keyed request must be answered within this, flood or not (the goal set for the fix).
 KEYED_SECONDS = 1.0
 #: Lines the server may print during the flood beyond its start lines: a few "closed or
@@ -64,8 +66,9 @@ def share(serve, tmp_path, **kw):
 
 
 class Flood:
-    """A thread opening connections that stop inside their headers, keeping the newest
-    `keep` open on this side (the server closes what it will), until stopped."""
+    """A thread opening connections that stop inside their headers (or say nothing),
+    keeping the newest `keep` open on this side (the server closes what it will), until
+    stopped."""
 
     def __init__(self, port: int, keep: int, per_second: float | None = None) -> None:
         self.port, self.keep, self.per_second = port, keep, per_second
@@ -78,19 +81,26 @@ class Flood:
 
     def _run(self) -> None:
         while not self.stop.is_set():
-            try:
-                s = socket.create_connection(("127.0.0.1", self.port), timeout=2)
-                s.sendall(PARTIAL)
-            except OSError:
-                continue  # the listen queue was full or the server closed it at once
+            # Not waiting for each connection to be taken in: the flood comes faster than
+            # a server accepts, as a real one does (the kernel retries what it drops).
+            s = socket.socket()
+            s.setblocking(False)
+            s.connect_ex(("127.0.0.1", self.port))
             self.socks.append(s)
             self.opened += 1
+            if len(self.socks) > 1:
+                try:  # the one before has most likely connected: it starts a request
+                    self.socks[-2].send(PARTIAL)
+                except OSError:
+                    pass  # not yet, or closed already: it stays silent, idle all the same
             if len(self.socks) > self.keep:
                 self.socks.popleft().close()
             if self.opened >= self.keep:
                 self.filled.set()
                 if self.per_second:
                     time.sleep(1 / self.per_second)
+            elif self.opened % 100 == 0:
+                time.sleep(0.05)  # let the connections in flight land
 
     def close(self) -> None:
         self.stop.set()
@@ -107,11 +117,17 @@ def test_idle_flood_never_shuts_out_a_keyed_request(serve, tmp_path) -> None:
     server, sid, edit = share(serve, tmp_path, open_files=(LOW_FILES, LOW_FILES))
     assert files_limit(server.proc.pid) == (LOW_FILES, LOW_FILES)
     printed = len(server.lines)
-    flood = Flood(server.port, FLOOD, per_second=300)
+    flood = Flood(server.port, FLOOD, per_second=CHURN)
     try:
         assert flood.filled.wait(60), f"only {flood.opened} connections opened"
         # Over four times the server's file limit was opened; it holds at most its cap.
         assert flood.opened >= FLOOD > 4 * LOW_FILES
+        # The burst came faster than any server accepts; the kernel queued it, and whoever
+        # comes now waits behind it once (out of scope: see the threat model). Then the
+        # flood goes on, each new connection taking an idle one's place.
+        with httpx.Client(base_url=server.url, timeout=60,
+                          headers={"X-Rankscope-Token": edit}) as first:
+            assert first.get(f"/api/s/{sid}/history").status_code == 200
         took = []
         for i in range(10):
             sent = time.monotonic()
@@ -221,6 +237,6 @@ def test_stalled_headers_and_trickling_bodies_are_closed_busy_clients_are_not(
 def test_open_file_limit_is_raised_to_the_hard_limit(serve, tmp_path) -> None:
     server, _, _ = share(serve, tmp_path, open_files=(LOW_FILES, 4 * LOW_FILES))
     assert files_limit(server.proc.pid) == (4 * LOW_FILES, 4 * LOW_FILES)
-    # The caps follow the limit: connections, one accept round and files to spare fit in it.
+    # The caps follow the limit: connections, accept rounds and files to spare fit in it.
     caps = Caps.for_files(4 * LOW_FILES)
-    assert caps.total + caps.backlog < 4 * LOW_FILES
+    assert caps.total + ROUNDS * caps.backlog < 4 * LOW_FILES

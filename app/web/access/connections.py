@@ -8,6 +8,8 @@ from __future__ import annotations
 
 import asyncio
 import logging
+import os
+import socket
 import time
 from collections import Counter, OrderedDict
 from collections.abc import Callable
@@ -37,11 +39,21 @@ BODY_BYTES_PER_SECOND = 500
 TOTAL = 4096
 PER_ADDRESS = 1024
 #: Part of the open-file limit kept for what is not a connection (the database, table files,
-#: static files, threads' pipes), and for the sockets one accept round may take before any
-#: is counted (asyncio accepts up to `backlog` in a row).
+#: static files, threads' pipes).
 RESERVE_SHARE = 8
 RESERVE_MIN = 32
+#: asyncio takes up to `backlog` sockets in one accept round, and a round or two more may
+#: come before the first round's connections are counted (each is counted a loop turn or
+#: two after its accept): room for this many rounds is kept free. The round is kept small
+#: next to the limit (a 32nd of it, at most uvicorn's default 2048); an accept that finds
+#: no descriptor left makes asyncio stop accepting for a whole second.
+ROUNDS = 4
+ROUND_SHARE = 32
 BACKLOG = 2048
+#: Connections the kernel may hold for us before they are accepted (they cost no file
+#: descriptor until then). Set after start, apart from the accept round above: a short
+#: queue drops a client's first packet during a burst, and its retry comes a second later.
+LISTEN_QUEUE = 2048
 #: At most one log line per this many seconds about connections closed or refused.
 LOG_SECONDS = 60.0
 
@@ -72,7 +84,7 @@ def raise_open_files() -> int | None:
 
 @dataclass(frozen=True)
 class Caps:
-    """How many connections are held: in total, per client address; the listen backlog."""
+    """How many connections are held: in total, per client address; the accept round."""
 
     total: int = TOTAL
     per_address: int = PER_ADDRESS
@@ -80,13 +92,13 @@ class Caps:
 
     @classmethod
     def for_files(cls, open_files: int | None) -> Caps:
-        """Caps that keep connections, one accept round and the reserve within open_files
+        """Caps that keep connections, the accept rounds and the reserve within open_files
         (None or RLIM_INFINITY: the defaults)."""
         if open_files is None or open_files <= 0 or open_files >= 1 << 40:
             return cls()
-        backlog = max(16, min(BACKLOG, open_files // RESERVE_SHARE))
-        reserve = max(RESERVE_MIN, open_files // RESERVE_SHARE)
-        total = max(16, min(TOTAL, open_files - reserve - backlog))
+        backlog = max(4, min(BACKLOG, open_files // ROUND_SHARE))
+        reserve = max(RESERVE_MIN, open_files // RESERVE_SHARE) + ROUNDS * backlog
+        total = max(16, min(TOTAL, open_files - reserve))
         return cls(total, min(PER_ADDRESS, total), backlog)
 
 
@@ -273,6 +285,12 @@ class GuardedServer(uvicorn.Server):
 
         loop.set_exception_handler(handler)
         await super().startup(sockets)
+        for server in getattr(self, "servers", ()):
+            for listening in server.sockets:
+                # listen() again on a duplicate of the descriptor changes the queue of the
+                # one socket (asyncio's wrapper does not offer listen).
+                with socket.socket(fileno=os.dup(listening.fileno())) as same:
+                    same.listen(max(LISTEN_QUEUE, self.config.backlog))
 
     async def on_tick(self, counter: int) -> bool:
         if counter % 10 == 0:  # ticks come every 0.1 s
