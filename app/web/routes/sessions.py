@@ -108,13 +108,19 @@ async def events(request: Request, session_id: str) -> Response:
     Feeds are counted per key (a link's token, or the owner's) and in all: past either cap
     the answer is 429 or 503 with what to do (RFC 6585 §4, RFC 9110 §15.6.4)."""
     hub = live_of(request)
-    if await anyio.to_thread.run_sync(hub.stamp, session_id) is None:
-        raise UnknownSession(session_id)
-    try:
+    try:  # counted first: a refusal costs no read of the store
         ticket = hub.admit(session_id, token_of(request) or role_of(request))
     except FeedRefused as refused:
         return JSONResponse({"error": refused.message}, status_code=refused.status,
                             headers={"Retry-After": str(RETRY_AFTER_SECONDS)})
+    try:
+        known = await anyio.to_thread.run_sync(hub.stamp, session_id) is not None
+    except BaseException:  # cancelled or failed: the place goes back, whatever happened
+        ticket.release()
+        raise
+    if not known:
+        ticket.release()
+        raise UnknownSession(session_id)
     return FeedResponse(hub, ticket)
 
 
