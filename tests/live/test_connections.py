@@ -10,7 +10,6 @@ and the links and keys the server printed.
 
 from __future__ import annotations
 
-import resource
 import socket
 import sys
 import threading
@@ -24,6 +23,7 @@ import pytest
 from rankscope.web.access.connections import BODY_SECONDS, HEADER_SECONDS, ROUNDS, Caps
 from tests.web.conftest import to_csv, units_table
 
+resource = pytest.importorskip("resource", reason="sets RLIMIT_NOFILE (POSIX)")
 pytestmark = pytest.mark.skipif(not sys.platform.startswith("linux"),
                                 reason="reads /proc and sets RLIMIT_NOFILE (Linux)")
 

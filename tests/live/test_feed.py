@@ -10,7 +10,6 @@ from __future__ import annotations
 import json
 import os
 import queue
-import resource
 import socket
 import sys
 import threading
@@ -190,6 +189,8 @@ def cpu_seconds(pid: int) -> float:
 
 @pytest.mark.skipif(not sys.platform.startswith("linux"), reason="reads /proc (Linux)")
 def test_many_feeds_cost_little_and_each_key_is_capped(serve, tmp_path) -> None:
+    import resource  # POSIX only, as is this test
+
     soft, hard = resource.getrlimit(resource.RLIMIT_NOFILE)
     if hard != resource.RLIM_INFINITY and hard < MANY + 200:
         pytest.skip(f"this test process may open {hard} files, the feeds need {MANY + 200}")
