@@ -19,27 +19,55 @@
   }
 
   // EventSource reconnects by itself (after the "retry" the server sends) when a feed
-  // ends or the network drops; the first event after that brings the view up to date.
-  const feed = new EventSource("/api/s/" + sid + "/events");
-  feed.addEventListener("state", (e) => {
-    let state;
-    try { state = JSON.parse(e.data); } catch (err) { return; }
-    showViewers(state.viewers);
-    rs.announce(state.revision);
-  });
-  feed.addEventListener("gone", () => {
-    feed.close();
-    viewers.hidden = true;
-    rs.notify("This session was deleted: nothing here can be saved any more.", "warn");
-    document.querySelectorAll("#workspace button, #workspace input, #workspace select, " +
-      "#overview button, #overview select").forEach((el) => { el.disabled = true; });
-  });
-  feed.addEventListener("error", () => {
-    // Shown greyed until the feed is back; a feed refused outright (404, 403) stays closed.
-    viewers.classList.add("offline");
-    if (feed.readyState === EventSource.CLOSED) viewers.hidden = true;
-  });
-  window.addEventListener("pagehide", () => feed.close());
+  // ends (the server ends quiet feeds now and then) or the network drops; the first event
+  // after that brings the view up to date. A feed refused with a status (429 or 503 when
+  // too many pages are open, 403, 404) is closed for good by the browser, so it is tried
+  // again here, waiting longer each time (with a little randomness, so that many pages
+  // refused together do not all come back at once).
+  const FIRST_WAIT_MS = 5000;
+  const LONGEST_WAIT_MS = 60000;
+  let feed = null;
+  let wait = FIRST_WAIT_MS;
+  let again = null;
+  let stopped = false;
+
+  function connect() {
+    again = null;
+    const source = new EventSource("/api/s/" + sid + "/events");
+    feed = source;
+    source.addEventListener("state", (e) => {
+      let state;
+      try { state = JSON.parse(e.data); } catch (err) { return; }
+      wait = FIRST_WAIT_MS;
+      showViewers(state.viewers);
+      rs.announce(state.revision);
+    });
+    source.addEventListener("gone", () => {
+      stop();
+      viewers.hidden = true;
+      rs.notify("This session was deleted: nothing here can be saved any more.", "warn");
+      document.querySelectorAll("#workspace button, #workspace input, #workspace select, " +
+        "#overview button, #overview select").forEach((el) => { el.disabled = true; });
+    });
+    source.addEventListener("error", () => {
+      // Shown greyed until the feed is back.
+      viewers.classList.add("offline");
+      if (source.readyState !== EventSource.CLOSED || stopped || again) return;
+      viewers.title = "This page is not updating by itself at the moment (reload it to " +
+        "see the latest); it tries again shortly";
+      again = setTimeout(connect, wait + Math.random() * 1000);
+      wait = Math.min(wait * 2, LONGEST_WAIT_MS);
+    });
+  }
+
+  function stop() {
+    stopped = true;
+    if (again) clearTimeout(again);
+    if (feed) feed.close();
+  }
+
+  connect();
+  window.addEventListener("pagehide", stop);
 
   // ---- share dialog -----------------------------------------------------------------
   const dialog = document.getElementById("share-dialog");

@@ -18,6 +18,7 @@ import uvicorn
 from rankscope.store import Store
 from rankscope.store.records import Created
 from rankscope.tables.read import read_table
+from rankscope.web.access.connections import raise_open_files, serving
 from rankscope.web.access.guard import hosts_for
 from rankscope.web.access.limits import Limits
 from rankscope.web.access.links import link
@@ -150,9 +151,11 @@ def run(path: str | os.PathLike | None, host: str = "127.0.0.1", port: int = 876
     if share:
         print("  every request needs one of these links; anyone who has a link can use it "
               "until its session is deleted", flush=True)
-    config = uvicorn.Config(app, host=host, port=port, log_level="warning",
-                            timeout_graceful_shutdown=SHUTDOWN_SECONDS)
-    server = uvicorn.Server(config)
+    # Connections are capped by what the open-file limit allows, raised first to the hard
+    # limit; live feeds get their share of it (see access/connections.py).
+    server = serving(app, host=host, port=port, open_files=raise_open_files(),
+                     log_level="warning", timeout_graceful_shutdown=SHUTDOWN_SECONDS)
+    app.state.live.bound_by(server.registry.caps.total)
     if open_browser:
         threading.Thread(target=_open_when_up, args=(server, start), daemon=True).start()
     try:

@@ -13,7 +13,7 @@ import subprocess
 import sys
 import threading
 import time
-from collections.abc import Sequence
+from collections.abc import Callable, Sequence
 from pathlib import Path
 
 import httpx
@@ -28,6 +28,14 @@ def free_port() -> int:
         return int(s.getsockname()[1])
 
 
+def _limit_files(limit: tuple[int, int]) -> Callable[[], None]:
+    def apply() -> None:  # runs in the child, before the server's program starts
+        import resource
+
+        resource.setrlimit(resource.RLIMIT_NOFILE, limit)
+    return apply
+
+
 class LiveServer:
     """One `rankscope serve` process on data_dir; its printed lines are collected as they
     come. A child process, so that a client in this process never shares its GIL.
@@ -35,17 +43,22 @@ class LiveServer:
     launcher: the python arguments that run the command line (default: -m rankscope.cli).
     held: the launcher waits for a line on its stdin before it serves (see release), so a
     restart can be made ready, imports and all, before the server it replaces is killed.
+    open_files: the process's open-file limit (RLIMIT_NOFILE) as (soft, hard), set before
+    it starts (POSIX only), e.g. to make a flood of connections reach it cheaply.
     """
 
     def __init__(self, data_dir: Path, *args: str,
-                 launcher: Sequence[str] = ("-m", "rankscope.cli"), held: bool = False) -> None:
+                 launcher: Sequence[str] = ("-m", "rankscope.cli"), held: bool = False,
+                 open_files: tuple[int, int] | None = None) -> None:
         self.port = free_port()
         self.url = f"http://127.0.0.1:{self.port}"
         cmd = [sys.executable, *launcher, "serve", "--no-browser", "--host", "127.0.0.1",
                "--port", str(self.port), "--data-dir", str(data_dir), *args]
         self.proc = subprocess.Popen(cmd, cwd=ROOT, stdout=subprocess.PIPE,
                                      stderr=subprocess.STDOUT, text=True,
-                                     stdin=subprocess.PIPE if held else subprocess.DEVNULL)
+                                     stdin=subprocess.PIPE if held else subprocess.DEVNULL,
+                                     preexec_fn=_limit_files(open_files) if open_files
+                                     else None)
         self.lines: list[str] = []
         threading.Thread(target=self._read, daemon=True).start()
         if not held:

@@ -26,14 +26,17 @@ HELD = ("-m", "tests.live.held")
 
 @pytest.fixture()
 def serve(tmp_path: Path) -> Iterator:
-    """serve(*args, data_dir=None, held=False) starts a server (default data folder:
-    tmp_path/data); held: imported and waiting for server.release() to serve. Every server
-    started is stopped at the end of the test."""
+    """serve(*args, data_dir=None, held=False, open_files=None) starts a server (default
+    data folder: tmp_path/data); held: imported and waiting for server.release() to serve;
+    open_files: its (soft, hard) open-file limit. Every server started is stopped at the end
+    of the test."""
     started: list[LiveServer] = []
 
-    def start(*args: str, data_dir: Path | None = None, held: bool = False) -> LiveServer:
+    def start(*args: str, data_dir: Path | None = None, held: bool = False,
+              open_files: tuple[int, int] | None = None) -> LiveServer:
         server = LiveServer(data_dir or tmp_path / "data", *args, held=held,
-                            launcher=HELD if held else ("-m", "rankscope.cli"))
+                            launcher=HELD if held else ("-m", "rankscope.cli"),
+                            open_files=open_files)
         started.append(server)
         return server
 

@@ -9,8 +9,8 @@ import asyncio
 import json
 import threading
 import time
+from collections import Counter
 from collections.abc import AsyncIterator, Callable
-from dataclasses import dataclass, field
 from typing import Any
 
 import anyio
@@ -24,8 +24,25 @@ KEEPALIVE_SECONDS = 15.0
 #: A feed ends after this long and the browser reconnects (EventSource does so by itself),
 #: so no connection is held forever and a stopping server is never kept waiting long.
 FEED_SECONDS = 300.0
+#: A feed with nothing new to say for this long ends too (the browser reconnects), so a page
+#: left open somewhere does not hold a connection for good.
+IDLE_SECONDS = 120.0
 #: What the browser waits before reconnecting (the SSE "retry" field, in milliseconds).
 RETRY_MS = 1000
+#: Pause after a wake-up before the session is read again, so a burst of pages opening (or
+#: of changes) is one read and one event, not one per page.
+GATHER_SECONDS = 0.05
+#: Most feeds open at once on one key (a link's token, or the owner's) and on the server. A
+#: page holds one feed; a view link handed to a team opens one per person and tab.
+FEEDS_PER_KEY = 128
+FEEDS_TOTAL = 1024
+
+TOO_MANY_ON_KEY = ("This link already has {n} live pages open, the most one link may have. "
+                   "Close some of them; this page still works but will not update by itself "
+                   "until then (reload it to see the latest).")
+TOO_MANY_ON_SERVER = ("This server already has {n} live pages open, the most it keeps. This "
+                      "page still works but will not update by itself until some close "
+                      "(reload it to see the latest).")
 
 
 def sse(event: str, data: dict[str, Any], event_id: str | None = None) -> str:
@@ -43,81 +60,185 @@ def revision(stamp: tuple[int, float]) -> str:
     return f"{stamp[0]}-{round(stamp[1] * 1e6)}"
 
 
-@dataclass(eq=False)
-class _Watcher:
-    loop: asyncio.AbstractEventLoop
-    wake: asyncio.Event = field(default_factory=asyncio.Event)
+class FeedRefused(Exception):
+    """No more feeds for this key or on this server: status 429 or 503 and a message."""
+
+    def __init__(self, status: int, message: str) -> None:
+        super().__init__(message)
+        self.status, self.message = status, message
+
+
+class _Channel:
+    """One session's announcements on one event loop: the store is read once per change or
+    poll and the event written for all of that session's feeds, which only wait for it."""
+
+    def __init__(self, hub: Hub, session_id: str) -> None:
+        self.hub, self.session_id = hub, session_id
+        self.loop = asyncio.get_running_loop()
+        self.feeds = 0
+        self.message = ""
+        self.serial = 0  # how many events were published
+        self.ended = False  # "gone" was published: feeds stop after it
+        self.published = asyncio.Event()
+        self.wake = asyncio.Event()
+        self.task: asyncio.Task | None = None
+
+    def publish(self, message: str) -> None:
+        self.message, self.serial = message, self.serial + 1
+        done, self.published = self.published, asyncio.Event()
+        done.set()  # feeds waiting on the old event go on; later ones wait on the new
+
+    async def run(self) -> None:
+        last: tuple[str, int] | None = None
+        try:
+            while self.feeds:
+                # Cleared before reading, so a change made while reading wakes the next wait.
+                self.wake.clear()
+                stamp = await anyio.to_thread.run_sync(self.hub.stamp, self.session_id)
+                if stamp is None:
+                    self.ended = True
+                    self.publish(sse("gone", {"session": self.session_id}))
+                    return
+                now = (revision(stamp), self.hub.viewers(self.session_id))
+                if now != last:
+                    self.publish(sse("state", {"version": stamp[0], "revision": now[0],
+                                               "viewers": now[1]}, str(stamp[0])))
+                    last = now
+                with anyio.move_on_after(self.hub.poll_seconds):
+                    await self.wake.wait()
+                # Pages that open (or changes that come) together are read as one.
+                await asyncio.sleep(GATHER_SECONDS)
+        finally:
+            self.hub._ended(self)
+
+
+class Ticket:
+    """A feed let in: its place in the counts, given back once (release) however it ends."""
+
+    def __init__(self, hub: Hub, session_id: str, key: str) -> None:
+        self.hub, self.session_id, self.key = hub, session_id, key
+        self.open = True
+
+    def release(self) -> None:
+        if self.open:
+            self.open = False
+            self.hub._release(self)
 
 
 class Hub:
-    """Open feeds per session. notify() may be called from any thread (routes run in a
-    thread pool); it wakes that session's feeds, which then read the store's stamp."""
+    """Open feeds per session, within caps per key and in total. notify() may be called from
+    any thread (routes run in a thread pool); it wakes that session's reader, which reads
+    the store's stamp once for all of the session's feeds."""
 
     def __init__(self, stamp: Callable[[str], tuple[int, float] | None], *,
-                 poll_seconds: float = POLL_SECONDS, feed_seconds: float = FEED_SECONDS
-                 ) -> None:
+                 poll_seconds: float = POLL_SECONDS, feed_seconds: float = FEED_SECONDS,
+                 idle_seconds: float = IDLE_SECONDS, per_key: int = FEEDS_PER_KEY,
+                 total: int = FEEDS_TOTAL) -> None:
         self._stamp = stamp
         self.poll_seconds = poll_seconds
         self.feed_seconds = feed_seconds
-        self._watchers: dict[str, set[_Watcher]] = {}
+        self.idle_seconds = idle_seconds
+        self.per_key, self.total = per_key, total
+        self._channels: dict[tuple[str, asyncio.AbstractEventLoop], _Channel] = {}
+        self._viewers: Counter[str] = Counter()
+        self._keys: Counter[str] = Counter()
+        self._open = 0
         self._guard = threading.Lock()
+
+    def bound_by(self, connections: int) -> None:
+        """Keep feeds to half of the connections the server holds, so that feeds (which
+        are never closed to make room) leave room for everything else."""
+        self.total = max(1, min(self.total, connections // 2))
+        self.per_key = min(self.per_key, self.total)
 
     def viewers(self, session_id: str) -> int:
         with self._guard:
-            return len(self._watchers.get(session_id, ()))
+            return self._viewers[session_id]
+
+    def open_feeds(self) -> int:
+        with self._guard:
+            return self._open
 
     def notify(self, session_id: str) -> None:
         """Something about the session changed (or someone came or went)."""
         with self._guard:
-            watchers = list(self._watchers.get(session_id, ()))
-        for w in watchers:
+            channels = [c for (sid, _), c in self._channels.items() if sid == session_id]
+        for c in channels:
             try:
-                w.loop.call_soon_threadsafe(w.wake.set)
-            except RuntimeError:  # its loop has closed: the feed is gone anyway
+                c.loop.call_soon_threadsafe(c.wake.set)
+            except RuntimeError:  # its loop has closed: the feeds are gone anyway
                 pass
 
     def stamp(self, session_id: str) -> tuple[int, float] | None:
         return self._stamp(session_id)
 
-    def _join(self, session_id: str) -> _Watcher:
-        watcher = _Watcher(asyncio.get_running_loop())
+    def admit(self, session_id: str, key: str) -> Ticket:
+        """A place for one more feed of session_id opened with key (a link's token, or the
+        owner's); FeedRefused when the key or the server has as many as allowed."""
         with self._guard:
-            self._watchers.setdefault(session_id, set()).add(watcher)
-        self.notify(session_id)
-        return watcher
+            if self._keys[key] >= self.per_key:
+                raise FeedRefused(429, TOO_MANY_ON_KEY.format(n=self.per_key))
+            if self._open >= self.total:
+                raise FeedRefused(503, TOO_MANY_ON_SERVER.format(n=self.total))
+            self._keys[key] += 1
+            self._viewers[session_id] += 1
+            self._open += 1
+        return Ticket(self, session_id, key)
 
-    def _leave(self, session_id: str, watcher: _Watcher) -> None:
+    def _release(self, ticket: Ticket) -> None:
         with self._guard:
-            left = self._watchers.get(session_id, set())
-            left.discard(watcher)
-            if not left:
-                self._watchers.pop(session_id, None)
-        self.notify(session_id)
+            for counts, name in ((self._keys, ticket.key), (self._viewers, ticket.session_id)):
+                counts[name] -= 1
+                if counts[name] <= 0:
+                    del counts[name]
+            self._open -= 1
+        self.notify(ticket.session_id)
 
-    async def feed(self, session_id: str) -> AsyncIterator[str]:
+    def _channel(self, session_id: str) -> _Channel:
+        where = (session_id, asyncio.get_running_loop())
+        with self._guard:
+            channel = self._channels.get(where)
+            if channel is None:
+                channel = self._channels[where] = _Channel(self, session_id)
+        if channel.task is None:
+            channel.task = channel.loop.create_task(channel.run())
+        return channel
+
+    def _ended(self, channel: _Channel) -> None:
+        with self._guard:
+            where = (channel.session_id, channel.loop)
+            if self._channels.get(where) is channel:
+                del self._channels[where]
+
+    async def feed(self, ticket: Ticket) -> AsyncIterator[str]:
         """The event stream of one page: a "state" event (version, revision, viewers) at
-        once and on every change, "gone" when the session is deleted."""
-        watcher = self._join(session_id)
+        once and on every change, "gone" when the session is deleted. It ends after
+        idle_seconds without news or feed_seconds in all; the browser then reconnects."""
+        channel = self._channel(ticket.session_id)
+        channel.feeds += 1
+        self.notify(ticket.session_id)  # the others hear of one more viewer
         try:
             yield f"retry: {RETRY_MS}\n\n"
-            last: tuple[str, int] | None = None
-            started = quiet_since = time.monotonic()
-            while time.monotonic() - started < self.feed_seconds:
-                # Cleared before reading, so a change made while reading wakes the next wait.
-                watcher.wake.clear()
-                stamp = await anyio.to_thread.run_sync(self._stamp, session_id)
-                if stamp is None:
-                    yield sse("gone", {"session": session_id})
-                    return
-                now = (revision(stamp), self.viewers(session_id))
-                if now != last:
-                    yield sse("state", {"version": stamp[0], "revision": now[0],
-                                        "viewers": now[1]}, str(stamp[0]))
-                    last, quiet_since = now, time.monotonic()
-                elif time.monotonic() - quiet_since > KEEPALIVE_SECONDS:
+            seen = 0
+            started = news = quiet = time.monotonic()
+            while True:
+                now = time.monotonic()
+                if channel.serial != seen:
+                    seen = channel.serial
+                    yield channel.message
+                    if channel.ended:
+                        return
+                    news = quiet = now
+                elif now - quiet > KEEPALIVE_SECONDS:
                     yield ": still here\n\n"
-                    quiet_since = time.monotonic()
-                with anyio.move_on_after(self.poll_seconds):
-                    await watcher.wake.wait()
+                    quiet = now
+                left = min(started + self.feed_seconds, news + self.idle_seconds) - now
+                if left <= 0:
+                    return
+                published = channel.published
+                with anyio.move_on_after(min(left, KEEPALIVE_SECONDS)):
+                    await published.wait()
         finally:
-            self._leave(session_id, watcher)
+            channel.feeds -= 1
+            channel.wake.set()
+            ticket.release()

@@ -7,13 +7,14 @@ from typing import Annotated, Any
 
 import anyio
 from fastapi import APIRouter, Body, File, Form, Request, UploadFile
-from fastapi.responses import JSONResponse, StreamingResponse
+from fastapi.responses import JSONResponse, Response, StreamingResponse
 
 from rankscope.report.export import MAX_RECIPE_BYTES
 from rankscope.web.access import links
 from rankscope.web.access.bodies import sound_text
 from rankscope.web.access.gate import can_edit, cookie_name, role_of, token_of
 from rankscope.web.analyst import UnknownSession
+from rankscope.web.live.feed import FeedRefused, Hub, Ticket
 from rankscope.web.recipes import import_steps
 from rankscope.web.routes.api import analyst_of, guarded, live_of, state_of
 from rankscope.web.stored import StoredSessions
@@ -24,6 +25,8 @@ LOCAL_NOTE = ("This server listens on this computer only, so these links work he
               "let others on your network open them, restart it with: rankscope serve --share")
 SHARED_NOTE = ("Anyone who has a link can use it until the session is deleted: the edit link "
                "can change, rename and delete the session; the view-only link can only watch.")
+#: What a refused feed is told to wait (Retry-After); the page's script waits longer each try.
+RETRY_AFTER_SECONDS = 30
 
 
 def sessions_of(request: Request) -> StoredSessions:
@@ -82,14 +85,42 @@ def share_links(request: Request, session_id: str) -> JSONResponse:
                          "sharing": request.app.state.share, "note": note})
 
 
+class FeedResponse(StreamingResponse):
+    """A feed's stream that gives its place back however it ends, even if the client went
+    away before the stream began (the generator's own cleanup would then never run)."""
+
+    def __init__(self, hub: Hub, ticket: Ticket) -> None:
+        super().__init__(hub.feed(ticket), media_type="text/event-stream",
+                         headers={"Cache-Control": "no-cache", "X-Accel-Buffering": "no"})
+        self.ticket = ticket
+
+    async def __call__(self, scope: Any, receive: Any, send: Any) -> None:
+        try:
+            await super().__call__(scope, receive, send)
+        finally:
+            self.ticket.release()
+
+
 @router.get("/s/{session_id}/events")
-async def events(request: Request, session_id: str) -> StreamingResponse:
-    """Server-sent events: the session's version and viewer count, at once and on change."""
+async def events(request: Request, session_id: str) -> Response:
+    """Server-sent events: the session's version and viewer count, at once and on change.
+    Feeds are counted per key (a link's token, or the owner's) and in all: past either cap
+    the answer is 429 or 503 with what to do (RFC 6585 §4, RFC 9110 §15.6.4)."""
     hub = live_of(request)
-    if await anyio.to_thread.run_sync(hub.stamp, session_id) is None:
+    try:  # counted first: a refusal costs no read of the store
+        ticket = hub.admit(session_id, token_of(request) or role_of(request))
+    except FeedRefused as refused:
+        return JSONResponse({"error": refused.message}, status_code=refused.status,
+                            headers={"Retry-After": str(RETRY_AFTER_SECONDS)})
+    try:
+        known = await anyio.to_thread.run_sync(hub.stamp, session_id) is not None
+    except BaseException:  # cancelled or failed: the place goes back, whatever happened
+        ticket.release()
+        raise
+    if not known:
+        ticket.release()
         raise UnknownSession(session_id)
-    return StreamingResponse(hub.feed(session_id), media_type="text/event-stream",
-                             headers={"Cache-Control": "no-cache", "X-Accel-Buffering": "no"})
+    return FeedResponse(hub, ticket)
 
 
 @router.post("/s/{session_id}/recipe")
