@@ -21,6 +21,20 @@ EPS = float(np.finfo(np.float64).eps)
 PIVOT_FLOOR = float(np.sqrt(EPS))
 
 
+def null_row_floor(d: np.ndarray, rank: int, tol: float) -> float:
+    """The length below which a row of the computed null-space basis is noise.
+
+    The computed null space is off by an angle of about tol/σ_r, σ_r the smallest singular
+    value kept (Wedin's sin θ theorem, BIT 12, 1972; Golub & Van Loan 4th ed. §8.6.2), so
+    each of its rows carries noise of that size. A near-dependency just above the rank cut
+    (σ_r ≈ 1e-8) makes that noise larger than PIVOT_FLOOR: the floor is the larger of
+    the two, so noise never puts a column on the left of an equation.
+    """
+    if rank == 0 or d[rank - 1] <= 0:
+        return PIVOT_FLOOR
+    return max(PIVOT_FLOOR, float(tol / d[rank - 1]))
+
+
 def default_tolerance(sigma_max: float, n: int, p: int) -> float:
     """σ_max·max(n, p)·eps: the usual numerical-rank tolerance.
 
@@ -123,7 +137,7 @@ def decide(
     rank = int(np.sum(d > tol)) if d.size else 0
     null = Vt[rank:].T if p else np.zeros((0, 0))
     zero = tuple(j for j in order if p and not np.any(A[:, j]))
-    dependent = dependent_columns(null, order, first=zero)
+    dependent = dependent_columns(null, order, floor=null_row_floor(d, rank, tol), first=zero)
     dep = set(dependent)
     basis = [j for j in order if j not in dep]
     first = [j for j in basis if j in constants]

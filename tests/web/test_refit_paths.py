@@ -200,3 +200,26 @@ def test_wide_design_changes_equal_the_replay(client, monkeypatch) -> None:
     deps = got.diagnosis["dependencies"]
     assert len(deps) == 1
     assert {"w1", "w2 (centered)", "w3"} <= {deps[0]["column"], *deps[0]["combination"]}
+
+
+def test_a_near_dependency_at_the_rank_cut_keeps_a_nonsingular_basis(client) -> None:
+    """Found by the upload fuzz test: after the response moves out of X, the factor's null
+    space carries noise of about tol/σ_r (σ_r ≈ 1e-8 from a column of 89012389 beside a
+    0/1 column); that noise once put an independent column on the left of an equation, the
+    basis was singular and the analysis failed. Reference: the exact rank and independent
+    columns by rational elimination on the stored floats (tests/core/exact.py)."""
+    from tests.core import exact
+
+    data = b"0,1,2,3,c\n0,0,0,0,0\n1,0,0,1,0\n0,1,35,89012389,9\n"
+    r = client.post("/api/upload", files={"file": ("table.csv", data, "text/csv")})
+    assert r.status_code == 201, r.text
+    sid = r.json()["session"]
+    done = client.post(f"/api/s/{sid}/changes?html=0",
+                       json={"kind": "step", "payload": {"step": "response", "column": "0"}})
+    assert done.status_code == 200, done.text
+    rows = np.array([[0, 0, 0, 0], [0, 0, 1, 0], [1, 35, 89012389, 9]], dtype=float)
+    cols = [exact.ones(3), *exact.columns_of(rows)]
+    assert done.json()["rank"] == exact.rank(cols) == 3
+    diag = client.get(f"/api/s/{sid}/diagnosis").json()
+    assert sorted(r["column"] for r in diag["dependencies"]) == ["2", "c"]  # 2 = 35·1, c = 9·1
+    check(client, sid, client.app.state.analyst.session(sid).table)
