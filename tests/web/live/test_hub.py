@@ -31,6 +31,25 @@ class Store:
         return None if self.version is None else (self.version, float(self.version))
 
 
+def in_own_loop(coro):
+    """asyncio.run on a thread of its own: the browser tests' sync Playwright leaves an event
+    loop running in the main thread, where asyncio.run refuses to start."""
+    out: dict = {}
+
+    def go() -> None:
+        try:
+            out["value"] = asyncio.run(coro)
+        except BaseException as exc:  # handed back to the test's thread
+            out["error"] = exc
+
+    t = threading.Thread(target=go)
+    t.start()
+    t.join()
+    if "error" in out:
+        raise out["error"]
+    return out["value"]
+
+
 def states(texts: list[str]) -> list[dict]:
     out = []
     for text in texts:
@@ -92,7 +111,7 @@ def test_many_feeds_share_one_reader_and_all_hear_a_change() -> None:
         assert hub.open_feeds() == 0 and hub.viewers("s") == 0
         return heard
 
-    heard = asyncio.run(run())
+    heard = in_own_loop(run())
     for texts in heard:
         seen = states(texts)
         assert seen[-1]["version"] == 1 and seen[-1]["viewers"] == n
@@ -116,6 +135,6 @@ def test_a_quiet_feed_ends_and_a_deleted_session_says_gone() -> None:
         await asyncio.wait_for(task, 5)
         return quiet, doomed, took
 
-    quiet, doomed, took = asyncio.run(run())
+    quiet, doomed, took = in_own_loop(run())
     assert 0.3 <= took < 2 and states(quiet)[0]["version"] == 0
     assert doomed[-1].startswith("event: gone")
