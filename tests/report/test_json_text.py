@@ -39,5 +39,5 @@ def test_same_document_as_json_ready() -> None:
 def test_a_line_per_field_and_per_matrix_row() -> None:
     doc = {"a": 1, "m": [[1.0, 2.0], [3.0, 4.0]], "d": {"k": [1, 2]}}
     assert json_text(doc).splitlines() == [
-        "{", '  "a": 1,', '  "m": [', "    [1.0, 2.0],", "    [3.0, 4.0]", "  ],",
-        '  "d": {', '    "k": [1, 2]', "  }", "}"]
+        "{", '  "a": 1,', '  "m": [', "    [1.0,2.0],", "    [3.0,4.0]", "  ],",
+        '  "d": {', '    "k": [1,2]', "  }", "}"]
