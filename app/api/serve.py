@@ -49,9 +49,8 @@ def _free_port() -> int:
 
 
 def _start(port: int | None, data_dir: str | os.PathLike | None, limits: Any) -> Running:
-    import uvicorn
-
     from rankscope.store import Store, default_root
+    from rankscope.web.access.connections import raise_open_files, serving
     from rankscope.web.access.guard import hosts_for
     from rankscope.web.app import create_app
     from rankscope.web.server import SHUTDOWN_SECONDS, base_url
@@ -60,8 +59,10 @@ def _start(port: int | None, data_dir: str | os.PathLike | None, limits: Any) ->
     store = Store(data_dir if data_dir is not None else default_root())
     app = create_app(store, limits=limits)
     app.state.allowed_hosts = hosts_for(HOST, port, HOST)  # as `rankscope serve` does
-    server = uvicorn.Server(uvicorn.Config(app, host=HOST, port=port, log_level="warning",
-                                           timeout_graceful_shutdown=SHUTDOWN_SECONDS))
+    # The same connection deadlines and caps, and feed bounds, as `rankscope serve`.
+    server = serving(app, host=HOST, port=port, open_files=raise_open_files(),
+                     log_level="warning", timeout_graceful_shutdown=SHUTDOWN_SECONDS)
+    app.state.live.bound_by(server.registry.caps.total)
     # uvicorn installs signal handlers only in the main thread; here the notebook keeps them.
     thread = threading.Thread(target=server.run, name="rankscope-serve", daemon=True)
     thread.start()

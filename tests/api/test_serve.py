@@ -61,3 +61,21 @@ def test_serve_a_fitted_model(served):
     url = served(results)
     got = _diagnosis(url)
     assert got["columns"] == ["(intercept)", "u", "v", "z"] and got["rank"] == 4
+
+
+def test_the_notebook_server_closes_a_connection_that_never_sends_its_headers(served):
+    """The notebook's server keeps the connection deadlines of `rankscope serve`
+    (rankscope.web.access.connections): a client that opens a connection and never finishes
+    its request line is closed after HEADER_SECONDS, not held forever."""
+    import socket
+    import time
+
+    from rankscope.web.access.connections import HEADER_SECONDS
+
+    url = served(planted(), "y")
+    host, port = urlsplit(url).netloc.split(":")
+    with socket.create_connection((host, int(port)), timeout=HEADER_SECONDS + 10) as conn:
+        conn.sendall(b"GET / HTTP/1.1\r\nHost: 127.0.0.1\r\n")  # the headers never end
+        started = time.monotonic()
+        assert conn.recv(4096) == b""  # closed by the server (a timeout here raises)
+        assert time.monotonic() - started < HEADER_SECONDS + 5
