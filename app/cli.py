@@ -255,7 +255,7 @@ def run_check(args: argparse.Namespace) -> int:
                             rank_correlation="spearman" in args.extras,
                             order="order" in args.extras)
     diagnosis = fields_of(found)
-    diagnosis["remedies"] = remedies_of(found, F, design, steps.steps, keep, args.tol)
+    remedies_of(found, F, design, steps.steps, keep, args.tol).into(diagnosis)
     return _write_check(args, rules, diagnosis, design, table.source, table.notes,
                         sys.stdout, sys.stderr)
 
@@ -313,7 +313,7 @@ def stream_check(args: argparse.Namespace, *, out: TextIO | None = None,
                             tol=args.tol, rank_correlation=False,
                             order="order" in args.extras)
     diagnosis = fields_of(found)
-    diagnosis["remedies"] = remedies_of(found, F, info.design(), steps.steps, keep, args.tol)
+    remedies_of(found, F, info.design(), steps.steps, keep, args.tol).into(diagnosis)
     stream = {"passes": info.passes, "blocks": info.blocks, "bytes": info.bytes_total,
               "seconds": round(info.seconds, 3)}
     return _write_check(args, rules, diagnosis, info.design(), info.source, info.table_notes,

@@ -187,7 +187,8 @@ def inspect(
                                 keep=keep or None, tol=tol,
                                 rank_correlation="spearman" in extras, order="order" in extras)
     steps = list(used_recipe.steps) if used_recipe is not None else []
-    remedies = remedies_of(diagnosis, F, design, steps, keep or None, tol)
+    found = remedies_of(diagnosis, F, design, steps, keep or None, tol)
     return Inspection(diagnosis, design, source=source, table_notes=table_notes,
-                      formula=used_formula, recipe=used_recipe, weights=w, remedies=remedies,
+                      formula=used_formula, recipe=used_recipe, weights=w,
+                      remedies=found.shown, remedies_not_previewed=found.unpreviewed,
                       extras=extras)

@@ -40,16 +40,23 @@ class Inspection:
         The design that was diagnosed (X, columns, y, groups, rows used).
     source : str
         Where the data came from.
+    remedies : list of dict
+        The remedies, previewed and ranked (the JSON contract's ``remedies``).
+    remedies_not_previewed : list of dict
+        The remedies past the preview budget of a wide design (kind, label, steps, keep):
+        apply one to see its numbers.
     """
 
     def __init__(self, diagnosis: Diagnosis, design: Design, *, source: str,
                  table_notes: list[str] | None = None, formula: str | None = None,
                  recipe: Recipe | None = None, weights: np.ndarray | None = None,
                  remedies: list[dict] | None = None,
+                 remedies_not_previewed: list[dict] | None = None,
                  extras: Sequence[str] = ("spearman", "order")) -> None:
         self.diagnosis = diagnosis
         self.extras = [e for e in ("spearman", "order") if e in extras]
         self.remedies = list(remedies or [])
+        self.remedies_not_previewed = list(remedies_not_previewed or [])
         self.design = design
         self.source = source
         self.table_notes = list(table_notes or [])
@@ -80,7 +87,8 @@ class Inspection:
         """
         from rankscope.report.checks import check_document, json_ready
 
-        found = self.diagnosis.to_dict() | {"remedies": self.remedies}
+        found = self.diagnosis.to_dict() | {
+            "remedies": self.remedies, "remedies_not_previewed": self.remedies_not_previewed}
         return json_ready(check_document(found, self.design, self.source, self.table_notes, [],
                                          self.extras))
 

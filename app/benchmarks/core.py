@@ -218,7 +218,7 @@ def remedy_rows(n: int, p: int, repeats: int) -> list[Row]:
                                       rank_correlation=False), repeats)
     F = factor_of(X, cols, y)
     d = diagnose_factor(F, response=design.response, rank_correlation=False)
-    found = remedies_of(d, F, design, steps, None, None)
+    found = remedies_of(d, F, design, steps, None, None).shown
     t_prev = best_of(lambda: remedies_of(d, F, design, steps, None, None), repeats)
     t_inf = best_of(lambda: diagnose_factor(F, response=design.response,
                                             rank_correlation=False, influence=True), repeats)

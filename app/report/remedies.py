@@ -17,9 +17,17 @@ from rankscope.core.factor import Factorization
 from rankscope.core.preview import Change, preview, summarize
 from rankscope.core.workspace import CONSTANT
 
-#: At most this many candidates are previewed (equations first, then flagged dimensions,
-#: then centring): each costs one analysis of the small factor.
+#: At most this many candidates are offered (equations first, then flagged dimensions,
+#: then centring).
 MOST = 40
+#: Each preview is one analysis of the changed (p, p) factor, O(p³) flops: previews stop when
+#: their summed p³ would pass that of MOST previews at PREVIEW_COLUMNS columns (a budget of
+#: about two seconds on a 2-core machine; measured: 40 previews at 250 columns in 1.5-2.5 s),
+#: and the rest are listed without a preview. At 1,000 columns one preview takes about a
+#: second, so 40 would keep `check` and the page's remedies waiting a minute.
+PREVIEW_COLUMNS = 250
+#: However wide the design, the first candidates (an equation's own columns) are previewed.
+FEWEST = 3
 #: A column is "far from zero with little spread" when |mean| exceeds this many standard
 #: deviations: it is then nearly collinear with the constant (common practice; the
 #: non-essential ill-conditioning of Marquardt, JASA 75, 1980, and Belsley, The American
@@ -173,6 +181,18 @@ def _centring(d: Diagnosis, F: Factorization, steps: list[dict[str, Any]],
     return out
 
 
+def previews_allowed(p: int) -> int:
+    """How many candidates a design of p columns previews (see PREVIEW_COLUMNS)."""
+    fit = (MOST * PREVIEW_COLUMNS**3) // max(p, 1) ** 3
+    return max(FEWEST, min(MOST, fit))
+
+
+def listed(c: Candidate) -> dict:
+    """A candidate in the contract's words, without its preview."""
+    return {"kind": c.kind, "label": c.label, "steps": [dict(s) for s in c.steps],
+            "keep": None if c.keep is None else list(c.keep)}
+
+
 def previewed(d: Diagnosis, F: Factorization, cands: list[Candidate], *,
               keep: list[str] | None = None, tol: float | None = None) -> list[dict]:
     """Each candidate with its preview, ranked: fewest exact dependencies left first, then
@@ -182,8 +202,7 @@ def previewed(d: Diagnosis, F: Factorization, cands: list[Candidate], *,
     rows = []
     for c in cands:
         p = preview(F, c.change, d, keep=keep, tol=tol)
-        row = {"kind": c.kind, "label": c.label, "steps": [dict(s) for s in c.steps],
-               "keep": None if c.keep is None else list(c.keep), **p.to_dict()}
+        row = {**listed(c), **p.to_dict()}
         if c.kind == "center":
             row["centering"] = _centering_verdict(now.condition_number, p.condition_number,
                                                   d, p.largest_vif)
@@ -236,12 +255,31 @@ def categorical_groups(groups: dict[str, list[str]], references: dict[str, str]
     return {g: cols for g, cols in groups.items() if coded(g, cols)}
 
 
+@dataclass(frozen=True)
+class Remedies:
+    """The remedies of a design: `shown`, previewed and ranked (the contract's `remedies`),
+    and `unpreviewed`, the candidates past the preview budget in the order they were found
+    (`remedies_not_previewed`: kind, label, steps, keep)."""
+
+    shown: list[dict]
+    unpreviewed: list[dict]
+
+    def into(self, doc: dict) -> dict:
+        """doc with both lists set (the JSON contract's fields)."""
+        doc["remedies"] = self.shown
+        doc["remedies_not_previewed"] = self.unpreviewed
+        return doc
+
+
 def remedies_of(d: Diagnosis, F: Factorization, design: Any, steps: list[dict[str, Any]],
-                keep: list[str] | None, tol: float | None) -> list[dict]:
-    """The previewed remedies of a design built by a recipe (rankscope.design.Design)."""
+                keep: list[str] | None, tol: float | None) -> Remedies:
+    """The remedies of a design built by a recipe (rankscope.design.Design): as many
+    previewed as the design's width allows (previews_allowed), the rest listed."""
     coded = categorical_groups(design.groups, design.references)
     indicator = {c for cols in coded.values() for c in cols}
     predictors = {c for c in design.columns if c not in indicator and c != CONSTANT}
     cands = candidates(d, F, groups=coded, references=design.references,
                        predictors=predictors, steps=steps)
-    return previewed(d, F, cands, keep=keep, tol=tol)
+    k = previews_allowed(F.p)
+    return Remedies(previewed(d, F, cands[:k], keep=keep, tol=tol),
+                    [listed(c) for c in cands[k:]])

@@ -322,6 +322,14 @@ def _remedies(d: dict) -> list[str]:
             lines += wrap(f"{r['label']}: {r['centering']}.", "  · ", "    ")
     if len(rows_in) > REMEDIES_SHOWN:
         lines += wrap(f"{len(rows_in) - REMEDIES_SHOWN} more in the JSON output (--json).")
+    rest = d.get("remedies_not_previewed") or []
+    if rest:
+        beyond = len(rest) - REMEDIES_SHOWN
+        lines += wrap(f"{len(rest)} more not previewed (each preview is one analysis of all "
+                      f"{len(d['columns']):,} columns): "
+                      + "; ".join(r["label"] for r in rest[:REMEDIES_SHOWN])
+                      + (f"; and {beyond} more in the JSON output" if beyond > 0 else "")
+                      + ". Try one with --recipe, or in the app (Apply, then Undo).")
     lines += wrap("A drop changes what the other coefficients mean; prefer the change your "
                   "subject knowledge supports, not only the best numbers.")
     return lines

@@ -11,7 +11,7 @@ from typing import Any
 from rankscope.core.diagnosis import diagnose_factor
 from rankscope.core.factor import factorize
 from rankscope.design.replay import trace_design
-from rankscope.report.remedies import remedies_of
+from rankscope.report.remedies import Remedies, remedies_of
 from rankscope.tables.table import Table
 from rankscope.web.analysis import Settings
 
@@ -29,8 +29,8 @@ def _current(table: Table, settings: Settings, influence: bool = False):
     return trace, design, F, d, keep
 
 
-def remedies(table: Table, settings: Settings) -> list[dict[str, Any]]:
-    """Every remedy of the current design with its preview, best first."""
+def remedies(table: Table, settings: Settings) -> Remedies:
+    """The remedies of the current design: those previewed, best first, and the rest."""
     _, design, F, d, keep = _current(table, settings)
     return remedies_of(d, F, design, list(settings.recipe), keep, None)
 

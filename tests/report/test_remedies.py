@@ -21,7 +21,7 @@ from rankscope.core.diagnosis import diagnose_factor
 from rankscope.core.factor import factorize
 from rankscope.core.preview import summarize
 from rankscope.design.recipe import Recipe, build_design
-from rankscope.report.remedies import remedies_of
+from rankscope.report.remedies import FEWEST, MOST, PREVIEW_COLUMNS, previews_allowed, remedies_of
 from rankscope.tables.read import read_table
 
 REL = 1e-9
@@ -59,13 +59,13 @@ def _same(x: float | None, y: float | None, rel: float = REL) -> bool:
     return abs(x - y) <= rel * max(abs(x), abs(y))
 
 
-def _check_all(path: Path) -> int:
-    design, F, d = _analyse(path, BASE)
-    rows = remedies_of(d, F, design, BASE, None, None)
+def _check_all(path: Path, steps: list[dict] = BASE) -> int:
+    design, F, d = _analyse(path, steps)
+    rows = remedies_of(d, F, design, steps, None, None).shown
     assert rows, "the design has a dependency, a near pair and a product: remedies expected"
     for r in rows:
         keep = r["keep"]
-        _, _, after = _analyse(path, BASE + r["steps"], keep)
+        _, _, after = _analyse(path, steps + r["steps"], keep)
         got = summarize(after, d).to_dict()
         assert got["rank"] == r["rank"] and got["columns"] == r["columns"], r["label"]
         assert set(got["infinite_vif"]) == set(r["infinite_vif"]), r["label"]
@@ -93,7 +93,7 @@ def test_previews_hold_over_many_designs(tmp_path: Path, seed: int, offset: floa
 def test_centering_a_product_matches_auxiliary_regressions(tmp_path: Path) -> None:
     path = _table(tmp_path, 2, 1000.0)
     design, F, d = _analyse(path, BASE)
-    rows = remedies_of(d, F, design, BASE, None, None)
+    rows = remedies_of(d, F, design, BASE, None, None).shown
     centre = next(r for r in rows if r["label"] == "Center the inputs of a·x")
     assert centre["centering"].startswith("helps")
     # Reference: statsmodels' auxiliary regressions on the centered data, total left out
@@ -119,6 +119,60 @@ def test_centering_cannot_cure_a_dependency_between_variables(tmp_path: Path) ->
     df.to_csv(path, index=False, float_format="%.17g")
     steps = [{"step": "response", "column": "y"}]
     design, F, d = _analyse(path, steps)
-    rows = remedies_of(d, F, design, steps, None, None)
+    rows = remedies_of(d, F, design, steps, None, None).shown
     verdicts = [r["centering"] for r in rows if r["kind"] == "center"]
     assert verdicts and all(v.startswith("cannot help") for v in verdicts)
+
+
+def test_the_preview_budget_is_the_work_of_forty_previews_at_250_columns() -> None:
+    # Each preview is one analysis of a (p, p) factor, O(p³) (Golub & Van Loan, Matrix
+    # Computations, 4th ed., §8.6: the SVD's cost is cubic in the number of columns).
+    assert previews_allowed(PREVIEW_COLUMNS) == MOST
+    assert previews_allowed(2 * PREVIEW_COLUMNS) == MOST // 8
+    assert previews_allowed(1_000) == previews_allowed(2_000) == FEWEST
+    assert all(previews_allowed(p) >= previews_allowed(p + 1) for p in range(1, 1_200))
+
+
+def _wide(tmp: Path) -> Path:
+    rng = np.random.default_rng(11)
+    n, k = 480, 400
+    df = pd.DataFrame(rng.normal(size=(n, k)), columns=[f"c{i:03d}" for i in range(k)])
+    df["total"] = df.c000 + df.c001  # an exact dependency: 3 drops and a keep
+    for i in range(4):  # near pairs: two drops and a combine each
+        df[f"twin{i}"] = df[f"c{10 + i:03d}"] + rng.normal(0, 1e-3, n)
+    df["y"] = df.c000 - df.c002 + rng.normal(size=n)
+    path = tmp / "wide.csv"
+    df.to_csv(path, index=False, float_format="%.17g")
+    return path
+
+
+def test_a_wide_design_previews_the_first_remedies_and_lists_the_rest(tmp_path: Path) -> None:
+    path = _wide(tmp_path)
+    steps = [{"step": "response", "column": "y"}]
+    design, F, d = _analyse(path, steps)
+    found = remedies_of(d, F, design, steps, None, None)
+    allowed = previews_allowed(F.p)
+    assert FEWEST <= allowed < MOST
+    assert len(found.shown) == allowed and found.unpreviewed
+    # Nothing is lost: previewed and listed together are every candidate, once each.
+    labels = [r["label"] for r in found.shown] + [r["label"] for r in found.unpreviewed]
+    assert len(labels) == len(set(labels)) >= allowed + 1
+    # The equation's own columns come first, so they are the ones previewed.
+    assert {"Drop c000", "Drop c001", "Drop total"} <= {r["label"] for r in found.shown}
+    for r in found.unpreviewed:
+        assert set(r) == {"kind", "label", "steps", "keep"}
+    # The previews that were made still equal the analysis after applying them.
+    assert _check_all(path, steps) == allowed
+
+
+def test_the_terminal_report_names_the_remedies_it_did_not_preview(tmp_path: Path) -> None:
+    from rankscope.report.text import render_text
+
+    path = _wide(tmp_path)
+    steps = [{"step": "response", "column": "y"}]
+    design, F, d = _analyse(path, steps)
+    doc = remedies_of(d, F, design, steps, None, None).into(d.to_dict())
+    text = " ".join(render_text(doc, design).split())
+    rest = doc["remedies_not_previewed"]
+    assert f"{len(rest)} more not previewed" in text
+    assert rest[0]["label"] in text and "Apply, then Undo" in text

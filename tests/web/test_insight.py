@@ -48,3 +48,39 @@ def test_rows_fragment_lists_rows_with_their_values(client, sid) -> None:
 def test_unknown_session_gets_a_message(client) -> None:
     r = client.get("/api/s/nope/remedies")
     assert r.status_code in (400, 404) and "error" in r.json()
+
+
+def test_a_wide_design_lists_the_remedies_past_the_preview_budget(client) -> None:
+    """Past the preview budget (rankscope.report.remedies.previews_allowed) the panel
+    previews the first remedies and lists the rest with an Apply button each; applying a
+    listed one gives the analysis its steps describe (reference: the changes route)."""
+    import io
+
+    import numpy as np
+    import pandas as pd
+
+    rng = np.random.default_rng(5)
+    n, k = 480, 400
+    df = pd.DataFrame(rng.normal(size=(n, k)), columns=[f"c{i:03d}" for i in range(k)])
+    df["total"] = df.c000 + df.c001
+    for i in range(4):
+        df[f"twin{i}"] = df[f"c{10 + i:03d}"] + rng.normal(0, 1e-3, n)
+    df["y"] = rng.normal(size=n)
+    buf = io.StringIO()
+    df.to_csv(buf, index=False, float_format="%.17g")
+    r = client.post("/api/upload", files={"file": ("wide.csv", buf.getvalue().encode(),
+                                                   "text/csv")})
+    assert r.status_code == 201, r.text
+    sid = r.json()["session"]
+    assert step(client, sid, {"step": "response", "column": "y"}).status_code in (200, 201)
+    data = client.get(f"/api/s/{sid}/remedies").json()
+    shown, rest = data["remedies"], data["remedies_not_previewed"]
+    assert shown and rest
+    assert "not previewed" in data["html"]
+    listed = re.findall(r'<li class="remedy-unpreviewed"', data["html"])
+    assert len(listed) == len(rest)
+    drop = next(x for x in rest if x["kind"] == "drop" and len(x["steps"]) == 1)
+    before = _state(client, sid)
+    assert step(client, sid, drop["steps"][0]).status_code in (200, 201)
+    after = _state(client, sid)
+    assert len(after["columns"]) == len(before["columns"]) - 1

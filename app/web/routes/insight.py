@@ -32,9 +32,11 @@ def _run(request: Request, session_id: str, what: str, fn) -> Any:
 @router.get("/s/{session_id}/remedies")
 def remedies(request: Request, session_id: str) -> dict[str, Any]:
     """Every remedy of the current design, previewed on the factor, as a sortable table."""
-    rows = _run(request, session_id, "previewing the remedies", insight.remedies)
-    return {"html": render("_remedies.html", rows=rows, can_edit=can_edit(request)),
-            "remedies": plain(rows)}
+    found = _run(request, session_id, "previewing the remedies", insight.remedies)
+    return {"html": render("_remedies.html", rows=found.shown, more=found.unpreviewed,
+                           can_edit=can_edit(request)),
+            "remedies": plain(found.shown),
+            "remedies_not_previewed": plain(found.unpreviewed)}
 
 
 @router.get("/s/{session_id}/influence")
