@@ -3,7 +3,8 @@
 `python -m rankscope.benchmarks.check [--quick] [--repeat N]` prints one table of wall-time
 ratios with each goal beside it; it asserts nothing and never hides a miss.
 
-Each case writes a table of random columns (planted: y depends on the first five) into a
+Each case writes a table of random columns (planted: y depends on the first five; "with
+dependencies" adds an exact dependency and four near pairs, so remedies are previewed) into a
 temporary folder, then times in fresh interpreters, alternately: `python -m rankscope check
 FILE --response y` (the terminal report, and the same with --json), and the baseline, which
 reads the same file with pyarrow (pyarrow.csv or pyarrow.parquet), stacks the matrix with a
@@ -26,14 +27,17 @@ from pathlib import Path
 
 import numpy as np
 
-#: (label, rows, columns, format, goal: check / baseline wall time).
+#: (label, rows, columns, format, goal: check / baseline wall time, planted dependencies).
+#: A design with dependencies has remedies to preview (see write_table); one without has none.
 CASES = {
-    "full": [("10,000 × 20 CSV", 10_000, 20, "csv", 1.5),
-             ("200,000 × 100 Parquet", 200_000, 100, "parquet", 1.0),
-             ("20,000 × 1,000 Parquet", 20_000, 1_000, "parquet", 1.5)],
-    "quick": [("2,000 × 10 CSV", 2_000, 10, "csv", 1.5),
-              ("20,000 × 20 Parquet", 20_000, 20, "parquet", 1.0),
-              ("2,000 × 100 Parquet", 2_000, 100, "parquet", 1.5)],
+    "full": [("10,000 × 20 CSV", 10_000, 20, "csv", 1.5, False),
+             ("200,000 × 100 Parquet", 200_000, 100, "parquet", 1.0, False),
+             ("20,000 × 1,000 Parquet", 20_000, 1_000, "parquet", 1.5, False),
+             ("20,000 × 1,000 Parquet with dependencies", 20_000, 1_000, "parquet", 1.5, True)],
+    "quick": [("2,000 × 10 CSV", 2_000, 10, "csv", 1.5, False),
+              ("20,000 × 20 Parquet", 20_000, 20, "parquet", 1.0, False),
+              ("2,000 × 100 Parquet", 2_000, 100, "parquet", 1.5, False),
+              ("2,000 × 100 Parquet with dependencies", 2_000, 100, "parquet", 1.5, True)],
 }
 REPEATS = {"full": 3, "quick": 1}
 #: Seconds the command's own imports may take beyond the baseline's (numpy, pyarrow).
@@ -64,13 +68,21 @@ class Row:
     verdict: str
 
 
-def write_table(folder: Path, n: int, p: int, fmt: str, seed: int = 0) -> Path:
-    """Random columns x0..x{p-1} and y = x0 + … + x4 + noise, as CSV or Parquet."""
+def write_table(folder: Path, n: int, p: int, fmt: str, seed: int = 0,
+                dependent: bool = False) -> Path:
+    """Random columns x0..x{p-1} and y = x0 + … + x4 + noise, as CSV or Parquet. dependent:
+    the last column is x0 + x1 (an exact dependency) and the four before it are x5..x8 plus
+    noise of 1/1000 of their spread (near pairs), as a total beside its parts and copied
+    columns would give."""
     rng = np.random.default_rng(seed)
     X = rng.standard_normal((n, p))
+    if dependent:
+        X[:, p - 1] = X[:, 0] + X[:, 1]
+        for k in range(4):
+            X[:, p - 2 - k] = X[:, 5 + k] + 1e-3 * rng.standard_normal(n)
     y = X[:, : min(5, p)].sum(axis=1) + rng.standard_normal(n)
     names = [f"x{j}" for j in range(p)]
-    path = folder / f"table_{n}x{p}.{fmt}"
+    path = folder / f"table_{n}x{p}{'_dependent' if dependent else ''}.{fmt}"
     if fmt == "parquet":
         import pyarrow as pa
         import pyarrow.parquet as pq
@@ -159,8 +171,8 @@ def main(argv: list[str] | None = None) -> int:
     repeats = args.repeat or REPEATS[mode]
     rows: list[Row] = []
     with tempfile.TemporaryDirectory() as tmp:
-        for label, n, p, fmt, goal in CASES[mode]:
-            path = write_table(Path(tmp), n, p, fmt)
+        for label, n, p, fmt, goal, dependent in CASES[mode]:
+            path = write_table(Path(tmp), n, p, fmt, dependent=dependent)
             rows += case_rows(label, path, goal, repeats)
             if fmt == "csv":
                 rows.append(import_row(path))

@@ -23,6 +23,7 @@ def test_check_bench_quick_runs() -> None:
     for what in ("2,000 × 10 CSV: `check` / pyarrow read + lstsq",
                  "20,000 × 20 Parquet: `check --json` / pyarrow read + lstsq",
                  "2,000 × 100 Parquet: `check` / pyarrow read + lstsq",
+                 "2,000 × 100 Parquet with dependencies: `check` / pyarrow read + lstsq",
                  "imports of `check` beyond the baseline's"):
         assert what in out, what
     assert "goal(s) MISSED" in out or "every goal met" in out
