@@ -18,7 +18,18 @@ from plotly.offline import get_plotlyjs
 from rankscope.design.recipe import Recipe
 from rankscope.design.steps import describe_step
 from rankscope.report import html_sections as sec
-from rankscope.report.figures import BRICK, GRID, INK, PAPER, TEAL, all_figures
+from rankscope.report.figures import (
+    BRICK,
+    GRID,
+    INK,
+    PAPER,
+    TEAL,
+    correlation_heatmap,
+    inflation_bars,
+    ridge_trace,
+    singular_value_spectrum,
+)
+from rankscope.report.text import WIDE_COLUMNS
 
 #: Which figures the report draws, by the id of the chart slot they fill.
 CHARTS = ("spectrum", "inflation", "correlation", "ridge")
@@ -77,12 +88,16 @@ def _script_safe(code: str) -> str:
 
 def _figures_js(diagnosis: dict, heatmap: str) -> tuple[str, set[str]]:
     """The script that draws the charts, and the ids of the charts it draws."""
-    figs = all_figures(diagnosis)
+    d = diagnosis
+    # Past WIDE_COLUMNS a p × p heatmap is grey noise (and 60 MB at 1,000 columns): the
+    # report leaves it out and says where the block view is (correlation_note).
+    wide = len(d["columns"]) > WIDE_COLUMNS
     chosen = {
-        "spectrum": figs["spectrum"],
-        "inflation": figs["inflation"],
-        "correlation": figs.get(f"heatmap-{heatmap}") or figs["heatmap-pearson"],
-        "ridge": figs["ridge"],
+        "spectrum": singular_value_spectrum(d),
+        "inflation": inflation_bars(d),
+        "correlation": None if wide else (correlation_heatmap(d, heatmap)
+                                          or correlation_heatmap(d, "pearson")),
+        "ridge": ridge_trace(d),
     }
     shown = {k: v for k, v in chosen.items() if v is not None}
     # A JavaScript literal, not JSON: NaN stays NaN. "<", ">" and "&" are escaped so that no
@@ -129,6 +144,12 @@ def render_html(
     charts_for = {"correlation": "Correlations of the non-constant columns",
                   "ridge": "Ridge path"}
     extra = [sec.section(k, t, sec.chart(k)) for k, t in charts_for.items() if k in shown]
+    if len(d["columns"]) > WIDE_COLUMNS:
+        extra.insert(0, sec.section("correlation", charts_for["correlation"], sec.para(
+            f"Not drawn past {WIDE_COLUMNS} columns: a {len(d['columns']):,} × "
+            f"{len(d['columns']):,} heatmap cannot be read. The app shows the columns that move "
+            "together block by block, with a click into one block's heatmap; "
+            "`rankscope check --json` has every correlation.")))
     all_notes = [*notes, *d.get("notes", [])]
     steps = [describe_step(s) for s in recipe] if recipe is not None else []
     drawing = _script_safe(script)

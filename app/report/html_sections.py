@@ -5,12 +5,19 @@ Formats finished results only; every number is read from the diagnosis, none com
 
 from __future__ import annotations
 
-import math
 from collections.abc import Sequence
 from html import escape
 
 from rankscope.report.cautions import VIF_MARK, choose_cautions
-from rankscope.report.text import INF, NONE, flagged_dimensions, num, p_value
+from rankscope.report.text import (
+    INF,
+    NONE,
+    WIDE_COLUMNS,
+    dimensions_shown,
+    flagged_dimensions,
+    num,
+    p_value,
+)
 
 
 def esc(value: object) -> str:
@@ -91,19 +98,27 @@ def conditioning(d: dict) -> str:
     return section("conditioning", "Rank and condition numbers", *parts)
 
 
+#: Dimensions a wide design's report shows beyond the flagged ones (dimensions_shown).
+WIDE_DIMENSIONS = 10
+
+
 def index_table(d: dict) -> str:
     names, idx = d["columns"], d["condition_indices"]
     props, exact, th = d["variance_proportions"], d["index_exact"], d["thresholds"]
-    order = sorted(range(len(idx)), key=lambda k: -(idx[k] if idx[k] is not None else math.inf))
+    order, shown, rank_of = dimensions_shown(d, WIDE_DIMENSIONS)
     flagged = flagged_dimensions(d)
-    head = ["", *[f"#{i + 1}{' !' if k in flagged else ''}" for i, k in enumerate(order)]]
-    rows = [["condition index", *["exact" if exact[k] else num(idx[k], 3, INF) for k in order]]]
+    head = ["", *[f"#{rank_of[k]}{' !' if k in flagged else ''}" for k in shown]]
+    rows = [["condition index", *["exact" if exact[k] else num(idx[k], 3, INF) for k in shown]]]
     marked = set()
     for r, name in enumerate(names, start=1):
-        rows.append([name, *[f"{props[k][name]:.2f}" for k in order]])
-        for j, k in enumerate(order, start=1):
+        rows.append([name, *[f"{props[k][name]:.2f}" for k in shown]])
+        for j, k in enumerate(shown, start=1):
             if k in flagged and props[k][name] > th["proportion"]:
                 marked.add((r, j))
+    trimmed = [] if len(shown) == len(order) else [para(
+        f"{len(shown)} of the {len(order)} dimensions shown (past {WIDE_COLUMNS} columns): "
+        f"the {WIDE_DIMENSIONS} most ill-conditioned and the flagged ones. The app's table and "
+        "`rankscope check --json` have them all.")]
     return section(
         "indices", "Condition indices and variance shares",
         para("One column per dimension of the unit-length design, the worst conditioned "
@@ -111,7 +126,8 @@ def index_table(d: dict) -> str:
              f"dimension. Highlighted: shares above {num(th['proportion'])} in a dimension "
              f"('!') whose index exceeds {num(th['condition_index'])} with at least two such "
              "shares (common practice, not a law)."),
-        '<div class="wide">' + table(head, rows, set(range(1, len(order) + 1)),
+        *trimmed,
+        '<div class="wide">' + table(head, rows, set(range(1, len(shown) + 1)),
                                      marked=marked) + "</div>")
 
 

@@ -149,14 +149,26 @@ def flagged_dimensions(d: dict) -> set[int]:
 WIDE_COLUMNS = 50
 
 
+def dimensions_shown(d: dict, most: int) -> tuple[list[int], list[int], dict[int, int]]:
+    """The index table's dimensions, most ill-conditioned first; those a report shows (all
+    of them up to WIDE_COLUMNS design columns, else the `most` most ill-conditioned and the
+    flagged ones: the full table is p² cells, a million at 1,000 columns, none read); and
+    each dimension's place in the order (1 = the most ill-conditioned)."""
+    idx = d["condition_indices"]
+    order = sorted(range(len(idx)), key=lambda k: -(idx[k] if idx[k] is not None else math.inf))
+    rank_of = {k: i + 1 for i, k in enumerate(order)}
+    if len(d["columns"]) <= WIDE_COLUMNS:
+        return order, order, rank_of
+    flagged = flagged_dimensions(d)
+    return order, [k for k in order if rank_of[k] <= most or k in flagged], rank_of
+
+
 def _index_table(d: dict) -> list[str]:
     names = d["columns"]
     idx = d["condition_indices"]
     props = d["variance_proportions"]
     exact = d["index_exact"]
     th = d["thresholds"]
-    # Most ill-conditioned dimension first.
-    order = sorted(range(len(idx)), key=lambda k: -(idx[k] if idx[k] is not None else math.inf))
     flagged = flagged_dimensions(d)
     lines = heading("Condition indices and variance-decomposition proportions")
     lines += wrap(
@@ -168,12 +180,8 @@ def _index_table(d: dict) -> list[str]:
         "'exact' is a dimension at the rank tolerance.")
     name_w = max(len(n) for n in names + ["condition index"])
     per = max(1, (WIDTH - name_w - 4) // 8)
-    shown = order
-    rank_of = {k: i + 1 for i, k in enumerate(order)}  # 1 = the most ill-conditioned
-    if len(names) > WIDE_COLUMNS:
-        # A wide design's full table is p² cells (a million at 1,000 columns, seconds to
-        # write, none read): the most ill-conditioned dimensions and the flagged ones.
-        shown = [k for k in order if rank_of[k] <= per or k in flagged]
+    order, shown, rank_of = dimensions_shown(d, per)
+    if len(shown) < len(order):
         lines += wrap(f"{len(shown)} of the {len(order)} dimensions shown: the most "
                       "ill-conditioned and the flagged ones (the JSON output, --json, has "
                       "them all).")

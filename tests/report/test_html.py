@@ -155,3 +155,32 @@ def test_opens_offline_in_a_browser(report: tuple[str, dict], tmp_path: Path, br
     assert asked == [path.as_uri()]
     assert set(drawn) == {"chart-spectrum", "chart-inflation", "chart-correlation",
                           "chart-ridge"}
+
+
+def test_a_wide_report_shows_the_dimensions_that_matter_and_no_grey_heatmap() -> None:
+    """Past WIDE_COLUMNS the index table shows the most ill-conditioned and the flagged
+    dimensions (reference: the planted near pair's dimension, found by the proportions) and
+    the p × p heatmap gives way to a pointer to the block view."""
+    from rankscope.report.html_sections import WIDE_DIMENSIONS
+    from rankscope.report.text import WIDE_COLUMNS
+
+    rng = np.random.default_rng(8)
+    n, k = 150, WIDE_COLUMNS + 30
+    frame = {f"c{i:02d}": rng.normal(size=n) for i in range(k)}
+    frame["twin"] = frame["c07"] + rng.normal(0, 1e-4, n)  # a flagged near pair
+    frame["y"] = rng.normal(size=n)
+    design = build_design(table(frame), Recipe([{"step": "response", "column": "y"}]))
+    diag = diagnose(design.X, design.columns, design.y, response=design.response).to_dict()
+    page = render_html(diag, title="Wide")
+    parsed = Page()
+    parsed.feed(page)
+    text = " ".join(" ".join(parsed.text).split())
+    p = len(diag["columns"])
+    assert f"of the {p} dimensions shown" in text
+    heads = re.findall(r"<th[^>]*>#(\d+)", page)
+    assert len(heads) >= WIDE_DIMENSIONS and len(heads) < p
+    assert "1" in heads  # the most ill-conditioned: the near pair's dimension
+    assert "Not drawn past" in text
+    figures = re.search(r"const FIGURES = (\{.*?\});\n", page, re.S)
+    assert figures and '"correlation"' not in figures.group(1)
+    assert len(page) < 6_000_000  # plotly.js (about 4.6 MB) and the tables; not p² cells
