@@ -110,6 +110,10 @@ def _facts(name: str, values, kind: str) -> list[str]:
         return []
     if kind == "categorical":
         used = list(values.categories)  # the reader keeps only categories that occur
+    elif kind == "boolean":  # at most two values: two passes instead of a hash of every row
+        present = ~np.asarray(values.isna())
+        truth = values.to_numpy(dtype=bool, na_value=False)
+        used = [v for v in (False, True) if (present & (truth == v)).any()]
     else:
         used = pd.Series(values).dropna().unique()
     if len(used) == 0:

@@ -80,7 +80,7 @@ class TextColumn:
         if given and len(pc.unique(uniques)) < len(uniques):  # a value listed twice
             return cls.from_arrow(arr.cast(arr.type.value_type), markers)
         indices = pa.chunked_array([c.indices for c in enc.chunks], enc.type.index_type)
-        codes = pc.fill_null(indices.combine_chunks(), -1).to_numpy().astype(np.int64)
+        codes = pc.fill_null(indices.combine_chunks(), -1).to_numpy()
         counts = np.bincount(codes + 1, minlength=len(uniques) + 1)[1:]
         if given:
             uniques, codes, counts = _used(uniques, codes, counts)
@@ -194,10 +194,14 @@ class TextColumn:
         texts = self.uniques.to_pylist()
         keep = [i for i in range(len(texts)) if not self.missing[i]]
         keep.sort(key=texts.__getitem__)
-        new_code = np.full(len(texts) + 1, -1, dtype=np.int64)
+        # Codes in the type pandas keeps them in (its rule: the narrowest whose maximum exceeds
+        # the number of categories), and valid by construction (-1 or a category's position):
+        # pandas neither converts nor checks them again.
+        small = (t for t in (np.int8, np.int16, np.int32) if len(keep) < np.iinfo(t).max)
+        new_code = np.full(len(texts) + 1, -1, dtype=next(small, np.int64))
         new_code[keep] = np.arange(len(keep))
         cats = pd.Index([texts[i] for i in keep], dtype="str")
-        return pd.Categorical.from_codes(new_code[self.codes], categories=cats)
+        return pd.Categorical.from_codes(new_code[self.codes], categories=cats, validate=False)
 
 
 def _used(uniques: pa.Array, codes: np.ndarray, counts: np.ndarray):
