@@ -2,8 +2,10 @@
 
 Does not decide kinds (infer.py does) beyond pyarrow's own number/date parsing.
 
-Python's csv module is also how rows are found again for messages (line numbers as in a text
-editor, header = line 1, a quoted field with newlines spanning several lines).
+Line numbers are those of a text editor as Python's csv module counts them (header = line 1, a
+quoted field with newlines spanning several lines): 2 + row when each row has a line of its
+own, else from where the quotes and line ends are, else (quotes inside fields) from the csv
+module itself, which also finds a cell's text again for a message.
 """
 
 from __future__ import annotations
