@@ -169,3 +169,13 @@ def test_long_cell_in_a_few_valued_column_is_refused_with_its_line():
     with pytest.raises(InputError) as info:
         read_bytes(data, "long.csv")
     assert info.value.where == "long.csv, line 52, column 'g'"
+
+
+@pytest.mark.parametrize("told", [-10, 10])
+def test_a_file_that_changed_size_since_its_size_was_taken_is_read_as_it_is(tmp_path, told,
+                                                                              monkeypatch):
+    monkeypatch.setattr(read, "BIG_FILE", 1)
+    path = tmp_path / "t.csv"
+    path.write_bytes(b"a,b\n" + b"1,2\n" * 100)
+    got = read._load(path, path.stat().st_size + told)
+    assert bytes(got) == path.read_bytes()
