@@ -91,15 +91,17 @@ def _facts(name: str, values, kind: str) -> list[str]:
     """Notes on empty, constant and code-like columns."""
     if kind == "numeric":
         v = np.asarray(values)
-        present = v[~np.isnan(v)]
-        if not present.size:
+        lo, hi = np.fmin.reduce(v), np.fmax.reduce(v)  # NaN (missing) only if all are
+        if np.isnan(lo):
             return [_empty(name)]
-        lo, hi = present.min(), present.max()
         if lo == hi:
             return [f"Column '{name}' is constant (every value is {number_text(lo)})."]
-        if (present == np.floor(present)).all() and hi < lo + 1e6:  # hi - lo may overflow
-            levels = pd.unique(present)
-            if 3 <= len(levels) <= 10 and present.size >= 5 * len(levels):
+        # Cheap refusals first (a fraction or an 11th value among the first rows), so most
+        # columns never pay for the full whole-number test and the distinct values.
+        levels = _whole_levels(v) if hi < lo + 1e6 else None  # hi - lo may overflow
+        if levels is not None:
+            present = int(np.count_nonzero(~np.isnan(v)))
+            if 3 <= len(levels) <= 10 and present >= 5 * len(levels):
                 shown = ", ".join(number_text(x) for x in np.sort(levels))
                 return [
                     f"Column '{name}' holds only the whole numbers {shown}; it is read as "
@@ -108,6 +110,10 @@ def _facts(name: str, values, kind: str) -> list[str]:
         return []
     if kind == "categorical":
         used = list(values.categories)  # the reader keeps only categories that occur
+    elif kind == "boolean":  # at most two values: two passes instead of a hash of every row
+        present = ~np.asarray(values.isna())
+        truth = values.to_numpy(dtype=bool, na_value=False)
+        used = [v for v in (False, True) if (present & (truth == v)).any()]
     else:
         used = pd.Series(values).dropna().unique()
     if len(used) == 0:
@@ -115,6 +121,20 @@ def _facts(name: str, values, kind: str) -> list[str]:
     if len(used) == 1:
         return [f"Column '{name}' is constant (every value is {short(used[0])})."]
     return []
+
+
+def _whole_levels(v: np.ndarray, most: int = 10, prefix: int = 4096) -> np.ndarray | None:
+    """The distinct present values when all are whole numbers and at most `most` differ, else
+    None. The first `prefix` rows are tried alone first: one fraction or one value too many
+    there settles it without a pass over every row."""
+    for part in (v[:prefix], v) if len(v) > prefix else (v,):
+        present = part[~np.isnan(part)]
+        if not (present == np.floor(present)).all():
+            return None
+        levels = pd.unique(present)
+        if len(levels) > most:
+            return None
+    return levels
 
 
 def _empty(name: str) -> str:

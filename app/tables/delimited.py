@@ -2,17 +2,21 @@
 
 Does not decide kinds (infer.py does) beyond pyarrow's own number/date parsing.
 
-Python's csv module is also how rows are found again for messages (line numbers as in a text
-editor, header = line 1, a quoted field with newlines spanning several lines).
+Line numbers are those of a text editor as Python's csv module counts them (header = line 1, a
+quoted field with newlines spanning several lines): 2 + row when each row has a line of its
+own, else from where the quotes and line ends are, else (quotes inside fields) from the csv
+module itself, which also finds a cell's text again for a message.
 """
 
 from __future__ import annotations
 
 import csv
 import io
+import mmap
 import re
 from collections.abc import Iterable, Iterator
 
+import numpy as np
 import pandas as pd
 import pyarrow as pa
 import pyarrow.compute as pc
@@ -27,14 +31,21 @@ from rankscope.tables.raw import Raw
 from rankscope.tables.text import MISSING_MARKERS
 
 csv.field_size_limit(max(csv.field_size_limit(), 1 << 26))
+#: The file's content: bytes, or for a big file, a buffer in memory (read.py's _load).
+Bytes = bytes | mmap.mmap
 NON_SPACE = re.compile(rb"\S")
+#: Most distinct values in one parse block (about 1 MB) for which pyarrow dictionary-encodes a
+#: text column; a column with more (free text, IDs) falls back to plain text in pyarrow and is
+#: encoded once, later. Our choice: categories rarely have more, and the cost of a failed try
+#: is one block's encoding.
+DICT_LEVELS = 1000
 
 
 class _Legacy(Exception):
     """The file turned out not to be UTF-8 after all."""
 
 
-def read_text(data: bytes, where: str, ext: str, declared: Iterable[str] = (),
+def read_text(data: Bytes, where: str, ext: str, declared: Iterable[str] = (),
               max_columns: int | None = None) -> Raw:
     """Read delimited text (already decompressed) into a Raw table of Arrow columns.
     max_columns: refuse a header with more names as soon as it is read (None: no limit)."""
@@ -62,12 +73,16 @@ def read_text(data: bytes, where: str, ext: str, declared: Iterable[str] = (),
     header = next(iter(_records(text, delimiter)), [])
     # The sample may cut a very long header short: its count is then a lower bound.
     check_columns(len(header), max_columns, where, at_least=not re.search("[\r\n]", text))
-    _check_quotes(data, off, delimiter, where)
+    has_quotes = data.find(b'"', off) >= 0  # memchr: a fraction of the parse's time
+    if has_quotes:
+        _check_quotes(data, off, delimiter, where)
     try:
-        table, one_line_rows = _arrow(data, off, delimiter, decimal, header, set(declared))
+        table, one_line_rows = _arrow(data, off, delimiter, decimal, header, set(declared),
+                                      has_quotes)
     except _Legacy:
         data, off = _transcode(data, off, notes)
-        table, one_line_rows = _arrow(data, off, delimiter, decimal, header, set(declared))
+        table, one_line_rows = _arrow(data, off, delimiter, decimal, header, set(declared),
+                                      has_quotes)
     if table is not None:
         names, columns = table.column_names, table.columns
         if one_line_rows:
@@ -100,12 +115,13 @@ def _first_control(sample: bytes, off: int) -> str:
     return f" ({what} at byte {off + pos + 1:,}, on line {line:,})"
 
 
-def _unbom(data: bytes, notes: list[str], where: str) -> tuple[bytes, int]:
-    if data.startswith(b"\xef\xbb\xbf"):
+def _unbom(data: Bytes, notes: list[str], where: str) -> tuple[Bytes, int]:
+    head = data[:4]
+    if head.startswith(b"\xef\xbb\xbf"):
         return data, 3
-    if data.startswith((b"\xff\xfe\x00\x00", b"\x00\x00\xfe\xff")):
+    if head.startswith((b"\xff\xfe\x00\x00", b"\x00\x00\xfe\xff")):
         encoding, label = "utf-32", "UTF-32"
-    elif data.startswith((b"\xff\xfe", b"\xfe\xff")):
+    elif head.startswith((b"\xff\xfe", b"\xfe\xff")):
         encoding, label = "utf-16", "UTF-16"
     else:
         encoding = _utf16_without_bom(data[: sniff.SAMPLE_BYTES])
@@ -113,9 +129,9 @@ def _unbom(data: bytes, notes: list[str], where: str) -> tuple[bytes, int]:
             return data, 0
         label = "UTF-16 (without a byte order mark)"
     try:
-        text = data.decode(encoding)
+        text = data[:].decode(encoding)
     except UnicodeDecodeError as e:
-        if data.startswith((b"\xff\xfe", b"\xfe\xff", b"\x00\x00\xfe\xff")):
+        if head.startswith((b"\xff\xfe", b"\xfe\xff", b"\x00\x00\xfe\xff")):
             raise InputError(f"The file is marked as {label} text but byte {e.start + 1:,} "
                              "is not valid there (the file may be cut short or damaged)",
                              where, "Save the file again, preferably as UTF-8") from None
@@ -137,10 +153,10 @@ def _utf16_without_bom(sample: bytes) -> str | None:
     return None
 
 
-def _check_quotes(data: bytes, off: int, delimiter: str, where: str) -> None:
+def _check_quotes(data: Bytes, off: int, delimiter: str, where: str) -> None:
     """Refuse a file that ends inside a quoted field: pyarrow would read the rest of the file
     into one cell. An odd number of quotes is the cheap sign; the scan finds the line."""
-    if data.count(b'"', off) % 2 == 0:
+    if _count(data, b'"', off) % 2 == 0:
         return
     text = data[off:].decode("utf-8", errors="replace")
     reader = csv.reader(io.StringIO(text, newline=""), delimiter=delimiter, quotechar='"',
@@ -160,18 +176,22 @@ def _check_quotes(data: bytes, off: int, delimiter: str, where: str) -> None:
         ) from None
 
 
-def _transcode(data: bytes, off: int, notes: list[str]) -> tuple[bytes, int]:
+def _transcode(data: Bytes, off: int, notes: list[str]) -> tuple[bytes, int]:
     text, encoding = sniff.legacy_decode(data[off:])
     name = {"cp1252": "Windows-1252 (Latin-1)", "latin-1": "Latin-1"}[encoding]
     notes.append(f"The file is not UTF-8; it was read as {name} text.")
     return text.encode("utf-8"), 0
 
 
-def _arrow(data, off, delimiter, decimal, header, declared) -> tuple[pa.Table | None, bool]:
+def _arrow(data, off, delimiter, decimal, header, declared,
+           has_quotes: bool) -> tuple[pa.Table | None, bool]:
     """The table via pyarrow (None when pyarrow cannot parse this dialect), and whether each
-    data row is known to sit on its own line (no quotes, no blank lines: line = 2 + row)."""
+    data row is known to sit on its own line (no quotes, no blank lines: line = 2 + row).
+
+    Text columns come back dictionary-encoded where they have few distinct values: pyarrow
+    encodes each block on the thread that parses it, so inference does not hash every cell
+    again on one core."""
     types = {name: pa.string() for name in declared}
-    has_quotes = data.find(b'"', off) >= 0
     one_line_rows = not has_quotes  # then blank lines are kept as rows, and checked for
     for _ in range(len(header) + 2):
         parse = pacsv.ParseOptions(
@@ -189,6 +209,8 @@ def _arrow(data, off, delimiter, decimal, header, declared) -> tuple[pa.Table | 
             quoted_strings_can_be_null=True,
             decimal_point=decimal,
             column_types=types,
+            auto_dict_encode=True,
+            auto_dict_max_cardinality=DICT_LEVELS,
         )
         try:
             table = pacsv.read_csv(
@@ -208,13 +230,17 @@ def _arrow(data, off, delimiter, decimal, header, declared) -> tuple[pa.Table | 
                 one_line_rows = False
                 continue
             return None, False
-        if any(pat.is_binary(f.type) for f in table.schema):
+        if any(pat.is_binary(_values(f.type)) for f in table.schema):
             raise _Legacy()
         if one_line_rows and _has_empty_rows(table):  # blank lines came through as rows
             one_line_rows = False
             continue
         return table, one_line_rows
     return None, False
+
+
+def _values(t: pa.DataType) -> pa.DataType:
+    return t.value_type if pat.is_dictionary(t) else t
 
 
 def _has_empty_rows(table: pa.Table) -> bool:
@@ -237,7 +263,7 @@ def _records(text: str, delimiter: str) -> Iterator[list[str]]:
         return
 
 
-def _scan(data: bytes, off: int, delimiter: str) -> Iterator[tuple[int, list[str]]]:
+def _scan(data: Bytes, off: int, delimiter: str) -> Iterator[tuple[int, list[str]]]:
     """(first line, fields) of each non-blank record; the header is the first."""
     text = data[off:].decode("utf-8", errors="replace")
     reader = csv.reader(io.StringIO(text, newline=""), delimiter=delimiter, quotechar='"')
@@ -248,23 +274,78 @@ def _scan(data: bytes, off: int, delimiter: str) -> Iterator[tuple[int, list[str
             yield start, rec
 
 
-def _line_index(data: bytes, off: int, n_rows: int, delimiter: str) -> pd.Index:
+def _line_index(data: Bytes, off: int, n_rows: int, delimiter: str) -> pd.Index:
     """Editor line of each data row: 2 + i when the file has one line per row; when blank lines
-    or quoted newlines make more lines than rows, the file is scanned once to find them."""
+    or quoted newlines make more lines than rows, the lines are found from where the quotes
+    and line ends are (_line_starts), or by Python's csv module when quotes sit inside fields."""
     end = len(data)
     while end > off and data[end - 1] in b"\r\n":
         end -= 1
-    newline = b"\n" if data.find(b"\n", off, min(end, off + sniff.SAMPLE_BYTES)) >= 0 else b"\r"
-    lines = data.count(newline, off, end) + 1
-    if lines == n_rows + 1 and data[off : off + 1] not in (b"\r", b"\n"):
-        return pd.RangeIndex(2, n_rows + 2, name="line")
-    starts = [start for start, _ in _scan(data, off, delimiter)][1:]
+    has_cr, has_lf = data.find(b"\r", off, end) >= 0, data.find(b"\n", off, end) >= 0
+    if not (has_cr and has_lf):  # one kind of line end (\r\n files take the longer way)
+        lines = _count(data, b"\r" if has_cr else b"\n", off, end) + 1
+        if lines == n_rows + 1 and data[off : off + 1] not in (b"\r", b"\n"):
+            return pd.RangeIndex(2, n_rows + 2, name="line")
+    found = _line_starts(data, off, delimiter)
+    if found is None:
+        starts = np.array([start for start, _ in _scan(data, off, delimiter)][1:], np.int64)
+    else:
+        starts = found[1:]
     if len(starts) != n_rows:  # the two parsers disagree; fall back to plain numbering
         return pd.RangeIndex(2, n_rows + 2, name="line")
     return pd.Index(starts, dtype="int64", name="line")
 
 
-def _python(data: bytes, off: int, delimiter: str, where: str, notes: list[str]):
+def _line_starts(data: Bytes, off: int, delimiter: str,
+                 block: int = 1 << 22) -> np.ndarray | None:
+    """The line on which each non-blank record starts (header first), as Python's csv module
+    counts them (lines end in \\n, \\r\\n or \\r; a quoted field may span lines), without
+    running it: a line end is inside a quoted field when an odd number of quotes come before
+    it. That holds only while every quote that opens a field follows a delimiter, a line end or
+    another quote ("" in a quoted field); otherwise (a quote inside an unquoted field, which
+    the csv module keeps as text) None, and the caller runs the csv module itself.
+    The file is looked at in blocks, so no mask or list of quotes is as big as the file."""
+    buf = np.frombuffer(data, np.uint8)[off:]
+    n = len(buf)
+    after = np.frombuffer(b'\n\r"' + delimiter.encode(), np.uint8)
+    ends, outside, odd = [], [], 0  # odd: whether the quotes so far are an odd number
+    for i in range(0, n, block):
+        seg = buf[i : i + block]
+        quotes = np.flatnonzero(seg == ord('"')) + i
+        opens = quotes[odd::2]
+        if not ((opens == 0) | np.isin(buf[np.maximum(opens - 1, 0)], after)).all():
+            return None
+        lf = np.flatnonzero(seg == ord("\n")) + i
+        cr = np.flatnonzero(seg == ord("\r")) + i
+        cr = cr[(cr + 1 >= n) | (buf[np.minimum(cr + 1, n - 1)] != ord("\n"))]  # lone \r
+        last = np.sort(np.concatenate([lf, cr])) if len(cr) else lf  # last byte of a line end
+        ends.append(last)
+        outside.append((np.searchsorted(quotes, last) + odd) % 2 == 0)
+        odd = (odd + len(quotes)) % 2
+    if odd or not ends:
+        return None  # a quote left open: refused earlier unless the csv module reads it so
+    last = np.concatenate(ends)
+    crlf = (last > 0) & (buf[last] == ord("\n")) & (buf[np.maximum(last - 1, 0)] == ord("\r"))
+    first = last - crlf
+    k = np.flatnonzero(np.concatenate(outside))
+    # Line end number k (from 0) closes line k + 1; what follows it starts on line k + 2.
+    starts = np.concatenate([[0], last[k] + 1])
+    stops = np.concatenate([first[k], [n]])
+    lines = np.concatenate([[1], k + 2])
+    return lines[stops > starts]  # blank lines are records of no bytes
+
+
+def _count(data: Bytes, byte: bytes, start: int = 0, end: int | None = None) -> int:
+    """data.count(byte, start, end), also for a memory buffer (which has no count)."""
+    if isinstance(data, bytes):
+        return data.count(byte, start, end)
+    buf = np.frombuffer(data, np.uint8)[start:end]
+    block = 1 << 24
+    return sum(int(np.count_nonzero(buf[i : i + block] == byte[0]))
+               for i in range(0, len(buf), block))
+
+
+def _python(data: Bytes, off: int, delimiter: str, where: str, notes: list[str]):
     """Parse with Python's csv module: names, Arrow string columns, line index.
 
     Forgives one quirk of spreadsheet exports: a delimiter at the end of the header only, or
@@ -317,7 +398,7 @@ def ragged(where: str, line: int, expected: int, rec: list[str], delimiter: str)
     )
 
 
-def _cell(data: bytes, off: int, delimiter: str, pos: int, j: int) -> str | None:
+def _cell(data: Bytes, off: int, delimiter: str, pos: int, j: int) -> str | None:
     """The text of data row pos, column j, as written in the file (for messages)."""
     for k, (_, rec) in enumerate(_scan(data, off, delimiter)):
         if k == pos + 1:

@@ -39,6 +39,8 @@ def infer_column(raw: Raw, j: int, name: str, declared: str | None):
     if isinstance(arr, pa.Array):
         arr = pa.chunked_array([arr])
     t = arr.type
+    if pat.is_dictionary(t) and (pat.is_string(t.value_type) or pat.is_large_string(t.value_type)):
+        return _text(raw, j, name, arr, declared)  # TextColumn takes the codes as they are
     if pat.is_dictionary(t):
         arr = pa.chunked_array([c.dictionary_decode() for c in arr.chunks], t.value_type)
         t = arr.type

@@ -69,12 +69,16 @@ def check_cells(raw: Raw, limit: int = MAX_CELL_CHARS) -> None:
     """Refuse a text cell longer than `limit` characters, naming its row and column: such a
     cell is a pasted document or a broken file, and would swamp every page that shows it."""
     for name, col in zip(raw.names, raw.columns, strict=True):
-        if not (pa.types.is_string(col.type) or pa.types.is_large_string(col.type)):
-            continue
+        if pa.types.is_dictionary(col.type):
+            # The longest text is in a dictionary; only then are the cells themselves looked at.
+            chunks = col.chunks if isinstance(col, pa.ChunkedArray) else [col]
+            values = pa.chunked_array([c.dictionary for c in chunks], col.type.value_type)
+            if _longest_bytes(values) <= limit:
+                continue
+            col = col.cast(col.type.value_type)
         # A cell of more than `limit` characters has more than `limit` bytes; byte lengths
         # come from the offsets, so most columns are cleared without decoding any text.
-        most_bytes = pc.max(pc.binary_length(col)).as_py()
-        if most_bytes is None or most_bytes <= limit:
+        if _longest_bytes(col) <= limit:
             continue
         lengths = pc.utf8_length(col)
         longest = pc.max(lengths).as_py()
@@ -87,3 +91,11 @@ def check_cells(raw: Raw, limit: int = MAX_CELL_CHARS) -> None:
             "Check that the file is the table you meant (a quote left open or a pasted "
             "document makes such cells); remove that column or shorten the cell",
         )
+
+
+def _longest_bytes(col) -> int:
+    """Bytes in the longest text of a string array (0 when all missing); from the offsets."""
+    if not (pa.types.is_string(col.type) or pa.types.is_large_string(col.type)):
+        return 0
+    most = pc.max(pc.binary_length(col)).as_py()
+    return most or 0

@@ -47,7 +47,8 @@ class Offending(Exception):
 class TextColumn:
     """Distinct values (uniques) and per-row codes of a text column."""
 
-    def __init__(self, uniques: pa.Array, codes: np.ndarray, markers: bool = True) -> None:
+    def __init__(self, uniques: pa.Array, codes: np.ndarray, markers: bool = True,
+                 counts: np.ndarray | None = None) -> None:
         self.uniques = (
             uniques.cast(pa.large_string()) if len(uniques) else pa.array([], pa.string())
         )
@@ -61,7 +62,9 @@ class TextColumn:
         else:
             miss = pa.array(np.zeros(len(self.uniques), bool))
         self.missing = _np(miss)
-        self.counts = np.bincount(codes[codes >= 0], minlength=len(self.uniques))
+        if counts is None:
+            counts = np.bincount(codes + 1, minlength=len(self.uniques) + 1)[1:]
+        self.counts = counts
 
     @classmethod
     def from_arrow(cls, arr: pa.ChunkedArray, markers: bool = True) -> TextColumn:
@@ -69,12 +72,19 @@ class TextColumn:
             arr = pa.chunked_array([arr])
         if arr.num_chunks == 0 or len(arr) == 0:
             return cls(pa.array([], pa.string()), np.zeros(len(arr), np.int32), markers)
-        enc = pc.dictionary_encode(arr).unify_dictionaries()
+        # A reader may hand over text already dictionary-encoded (the CSV reader encodes while
+        # it parses, on all cores); its dictionaries are unified, not encoded again.
+        given = pa.types.is_dictionary(arr.type)
+        enc = (arr if given else pc.dictionary_encode(arr)).unify_dictionaries()
         uniques = enc.chunk(0).dictionary
-        codes = np.concatenate(
-            [pc.fill_null(c.indices, pa.scalar(-1, c.indices.type)).to_numpy() for c in enc.chunks]
-        )
-        return cls(uniques, codes.astype(np.int64, copy=False), markers)
+        if given and len(pc.unique(uniques)) < len(uniques):  # a value listed twice
+            return cls.from_arrow(arr.cast(arr.type.value_type), markers)
+        indices = pa.chunked_array([c.indices for c in enc.chunks], enc.type.index_type)
+        codes = pc.fill_null(indices.combine_chunks(), -1).to_numpy()
+        counts = np.bincount(codes + 1, minlength=len(uniques) + 1)[1:]
+        if given:
+            uniques, codes, counts = _used(uniques, codes, counts)
+        return cls(uniques, codes, markers, counts)
 
     @classmethod
     def from_categorical(cls, values: pd.Categorical) -> TextColumn:
@@ -184,10 +194,28 @@ class TextColumn:
         texts = self.uniques.to_pylist()
         keep = [i for i in range(len(texts)) if not self.missing[i]]
         keep.sort(key=texts.__getitem__)
-        new_code = np.full(len(texts) + 1, -1, dtype=np.int64)
+        # Codes in the type pandas keeps them in (its rule: the narrowest whose maximum exceeds
+        # the number of categories), and valid by construction (-1 or a category's position):
+        # pandas neither converts nor checks them again.
+        small = (t for t in (np.int8, np.int16, np.int32) if len(keep) < np.iinfo(t).max)
+        new_code = np.full(len(texts) + 1, -1, dtype=next(small, np.int64))
         new_code[keep] = np.arange(len(keep))
         cats = pd.Index([texts[i] for i in keep], dtype="str")
-        return pd.Categorical.from_codes(new_code[self.codes], categories=cats)
+        return pd.Categorical.from_codes(new_code[self.codes], categories=cats, validate=False)
+
+
+def _used(uniques: pa.Array, codes: np.ndarray, counts: np.ndarray):
+    """A given dictionary cut to the values some row uses, a null entry read as a missing
+    cell: what encoding the plain text would have given (a file's dictionary may hold more).
+    Returns (uniques, codes, counts)."""
+    seen = counts > 0
+    if uniques.null_count:
+        seen &= ~np.asarray(uniques.is_null().to_numpy(zero_copy_only=False), dtype=bool)
+    if seen.all():
+        return uniques, codes, counts
+    new_code = np.full(len(uniques) + 1, -1, dtype=np.int64)
+    new_code[np.flatnonzero(seen)] = np.arange(int(seen.sum()))
+    return uniques.filter(pa.array(seen)), new_code[codes], counts[seen]
 
 
 def _np(arr) -> np.ndarray:
