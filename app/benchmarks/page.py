@@ -73,11 +73,21 @@ class Figures:
     repaint: float
     server: float
     fragment: int
+    #: The browser's share of the change, in order: the answer's bytes arriving after its
+    #: first byte, the fragment put in place (JSON read, old workspace replaced), then the
+    #: figures in view drawn and the page painted; and the figures left for later (drawn
+    #: when scrolled to).
+    download: float = 0.0
+    swap: float = 0.0
+    draw: float = 0.0
+    later: int = 0
 
 
-# Long tasks (main thread blocked over 50 ms) as Chromium reports them, from the start.
+# Long tasks (main thread blocked over 50 ms) as Chromium reports them, from the start; and
+# when the page last put a fragment in place (rankscope.js announces each swap).
 WATCH = """
 window.__long = [];
+document.addEventListener("rankscope:swapped", () => { window.__swapped = performance.now(); });
 try {
   new PerformanceObserver((list) => {
     for (const e of list.getEntries()) window.__long.push([e.startTime, e.duration]);
@@ -114,15 +124,30 @@ SCROLLED = """async ([selector, quiet]) => {
   return (Math.max(seen, lastEnd()) - t0) / 1000;
 }"""
 
+# Repainted: the new workspace is in place, `selector` is there, and every figure in view is
+# drawn (a wide page draws a figure when it comes near the view; data-pending marks one not
+# yet drawn), then one more frame. The moment, the answer's arrival (resource timing of the
+# change's request), the swap, and the figures still waiting out of view.
 REPAINTED = """async ([version, selector]) => {
   const frame = () => new Promise((r) => requestAnimationFrame(() => setTimeout(r, 0)));
+  const inView = (el) => {
+    const r = el.getBoundingClientRect();
+    return r.width > 0 && r.bottom > 0 && r.top < window.innerHeight;
+  };
+  const waiting = () => Array.from(document.querySelectorAll(".figure[data-pending]"));
   while (true) {
     const ws = document.getElementById("workspace");
-    if (ws && ws.dataset.version !== version && document.querySelector(selector)) break;
+    if (ws && ws.dataset.version !== version && document.querySelector(selector) &&
+        !waiting().some(inView)) break;
     await frame();
   }
   await frame();
-  return performance.now();
+  const done = performance.now();
+  const sent = performance.getEntriesByType("resource")
+    .filter((e) => e.name.includes("/changes")).pop();
+  return { done: done, responseStart: sent ? sent.responseStart : 0,
+           responseEnd: sent ? sent.responseEnd : 0, swapped: window.__swapped || 0,
+           later: waiting().length };
 }"""
 
 
@@ -171,7 +196,8 @@ def measure(context: Any, sid: str, drop: str, first: str, drawn: str, kind: str
                               and "/changes" in r.url) as answer:
         t0 = page.evaluate("performance.now()")
         page.click(f'button[aria-label="Drop {drop}"]')
-    done = page.evaluate(REPAINTED, [version, drawn])
+    seen = page.evaluate(REPAINTED, [version, drawn])
+    done = float(seen["done"])
     timing = answer.value.request.timing
     # Server share: from the request sent to the first byte of the answer (Playwright's
     # resource timing, in ms).
@@ -180,8 +206,14 @@ def measure(context: Any, sid: str, drop: str, first: str, drawn: str, kind: str
     nodes = int(got["nodes"])
     rank = int(page.get_attribute("#workspace", "data-rank") or 0)
     page.close()
+    # The browser's share, split at the answer's last byte and at the swap (page clock, ms).
+    end, swapped = float(seen["responseEnd"]), float(seen["swapped"])
+    download = max(end - float(seen["responseStart"]), 0.0) / 1000 if end else 0.0
+    swap = max(swapped - end, 0.0) / 1000 if end and swapped > end else 0.0
+    draw = max(done - max(swapped, end), 0.0) / 1000 if swapped > end else 0.0
     return Figures(rank, shipped, float(got["ready"]), float(got["blocked"]), figures, sort, nodes,
-                   (done - t0) / 1000, server, fragment)
+                   (done - t0) / 1000, server, fragment, download, swap, draw,
+                   int(seen["later"]))
 
 
 def prepare(base: str, path: Path, response: str) -> tuple[str, float]:
@@ -217,6 +249,10 @@ def line(name: str, f: Figures, base: Figures | None) -> str:
             f"    of which the server          {f.server:8.3f} s\n"
             f"    in the browser               {f.repaint - f.server:8.3f} s"
             f"{ratio(f.repaint - f.server, b.repaint - b.server)}\n"
+            f"      answer arriving            {f.download:8.3f} s\n"
+            f"      fragment put in place      {f.swap:8.3f} s\n"
+            f"      figures in view, painted   {f.draw:8.3f} s"
+            f" ({f.later} figure(s) drawn when scrolled to)\n"
             f"  change's answer (fragment)     {f.fragment / 1e6:8.3f} MB")
 
 

@@ -11,6 +11,7 @@ import io
 import math
 from collections.abc import Callable, Iterator
 from dataclasses import asdict, dataclass
+from functools import partial
 from typing import Any
 
 import numpy as np
@@ -40,13 +41,19 @@ class Column:
 
 @dataclass(eq=False)
 class Row:
-    """One row: its shown cells, its sort values by key (None: no value, always last), the
-    design column it is about (or None) and its marks (CSS classes: infinite, flagged …)."""
+    """One row: its shown cells (made by `shown` when the row is on a page: a wide design
+    has a thousand rows, a page shows 25), its sort values by key (None: no value, always
+    last), the design column it is about (or None) and its marks (CSS classes: infinite,
+    flagged …)."""
 
-    cells: list[str]
+    shown: Callable[[], list[str]]
     values: dict[str, Any]
     column: str | None = None
     mark: str = ""
+
+    @property
+    def cells(self) -> list[str]:
+        return self.shown()
 
 
 @dataclass(frozen=True)
@@ -72,22 +79,29 @@ def _vif_columns(d: dict[str, Any]) -> list[Column]:
     return cols
 
 
+def _vif_cells(col: str, v: Any, tol: Any, se: Any, gvif: bool, g: str | None, gs: Any
+               ) -> list[str]:
+    cells = [col, infinite_num(v), num(tol), infinite_num(se)]
+    return cells + [num(gs) if g else "", g or ""] if gvif else cells
+
+
 def _vif_rows(d: dict[str, Any]) -> list[Row]:
     group_of = {c: g for g, info in (d.get("gvif") or {}).items() for c in info["columns"]}
     se = d.get("se_inflation") or {}
+    tolerance = d.get("tolerance") or {}
+    gvif = bool(d.get("gvif"))
     rows = []
     for col, v in (d.get("vif") or {}).items():
         g = group_of.get(col)
         gs = d["gvif"][g]["gvif_scaled"] if g else None
-        tol = (d.get("tolerance") or {}).get(col)
-        cells = [col, infinite_num(v), num(tol), infinite_num(se.get(col))]
+        tol = tolerance.get(col)
         values = {"column": col.lower(), "vif": math.inf if v is None else v,
                   "tolerance": _f(tol),
                   "se": math.inf if se.get(col) is None else se[col]}
-        if d.get("gvif"):
-            cells += [num(gs) if g else "", g or ""]
+        if gvif:
             values |= {"gvif": _f(gs), "group": (g or "").lower() or None}
-        rows.append(Row(cells, values, col, "infinite" if v is None else ""))
+        rows.append(Row(partial(_vif_cells, col, v, tol, se.get(col), gvif, g, gs), values,
+                        col, "infinite" if v is None else ""))
     return rows
 
 
@@ -129,7 +143,7 @@ def _index_rows(d: dict[str, Any]) -> list[Row]:
                  num(largest, 2) if largest is not None else "—", text]
         values = {"dimension": k, "index": math.inf if idx is None else idx,
                   "largest": largest, "names": [c.lower() for c, _ in high]}
-        rows.append(Row(cells, values, None, marks))
+        rows.append(Row(partial(list, cells), values, None, marks))
     return rows
 
 
@@ -142,27 +156,35 @@ def _fit_columns(d: dict[str, Any]) -> list[Column]:
     return cols
 
 
+def _fit_cells(c: str, values: dict[str, Any], aliased: bool, any_aliased: bool
+               ) -> list[str]:
+    if aliased:
+        cells = [c, "aliased", "—", "—", "—"]
+    else:
+        cells = [c, num(values["coefficient"]), num(values["se"]), num(values["t"], 3),
+                 p_value(values["p"])]
+    return cells + [num(values["min_norm"])] if any_aliased else cells
+
+
 def _fit_rows(d: dict[str, Any]) -> list[Row]:
     fit = d.get("fit")
     if not fit:
         return []
     aliased = set(fit.get("aliased") or [])
+    coefs, ses = fit["coefficients"], fit["std_errors"]
+    ts, ps = fit["t_values"], fit["p_values"]
+    min_norm = fit.get("min_norm") or {}
     rows = []
     for c in d["columns"]:
         if c in aliased:
-            cells = [c, "aliased", "—", "—", "—"]
             values: dict[str, Any] = {"column": c.lower()}
         else:
-            coef, se = fit["coefficients"].get(c), fit["std_errors"].get(c)
-            t, p = fit["t_values"].get(c), fit["p_values"].get(c)
-            cells = [c, num(coef), num(se), num(t, 3), p_value(p)]
-            values = {"column": c.lower(), "coefficient": _f(coef), "se": _f(se),
-                      "t": _f(t), "p": _f(p)}
+            values = {"column": c.lower(), "coefficient": _f(coefs.get(c)),
+                      "se": _f(ses.get(c)), "t": _f(ts.get(c)), "p": _f(ps.get(c))}
         if aliased:
-            mn = (fit.get("min_norm") or {}).get(c)
-            cells.append(num(mn))
-            values["min_norm"] = _f(mn)
-        rows.append(Row(cells, values, c, "aliased" if c in aliased else ""))
+            values["min_norm"] = _f(min_norm.get(c))
+        rows.append(Row(partial(_fit_cells, c, values, c in aliased, bool(aliased)), values, c,
+                        "aliased" if c in aliased else ""))
     return rows
 
 
