@@ -1,5 +1,6 @@
 """Benchmark: the design page of a wide design in headless Chromium: bytes shipped, time until
-ready for input, one change from click to repainted page; the demo page measured alongside.
+ready for input, one change from click to repainted page (the server's share split by its
+Server-Timing header, the browser's by the page's clock); the demo page measured alongside.
 
 Drives a real server (a child process) with Playwright (python -m rankscope.benchmarks.page);
 asserts nothing.
@@ -25,8 +26,11 @@ DEMO = ROOT / "demo_data" / "cold_storage.csv"
 CHROMIUM = Path("/usr/bin/chromium")
 FLAGS = ["--headless", "--no-sandbox", "--disable-gpu", "--disable-background-networking"]
 
-#: The goals of the page at 20,000 × 1,000 (the issue's table): MB shipped, seconds.
-GOALS = {"shipped_mb": 2.0, "ready_s": 2.0, "repaint_s": 2.0}
+#: The goals of the page at 20,000 × 1,000 (the issue's table): MB shipped, seconds; a change
+#: within 1 s of the server's time and 2 s from the click to the repainted page (server
+#: included), and the browser's share of it alone within 2 s (the earlier goal).
+GOALS = {"shipped_mb": 2.0, "ready_s": 2.0, "server_s": 1.0, "repaint_s": 2.0,
+         "browser_s": 2.0}
 
 
 def wide_table(folder: Path, rows: int, levels: int, seed: int = 3) -> Path:
@@ -81,6 +85,12 @@ class Figures:
     swap: float = 0.0
     draw: float = 0.0
     later: int = 0
+    #: The server's share as its Server-Timing header tells it: the change (checks, its
+    #: analysis, the store's write) and the page fragment with the rest of the answer; and
+    #: the analysis' own seconds (the answer's `seconds`).
+    change: float = 0.0
+    page: float = 0.0
+    analysis: float = 0.0
 
 
 # Long tasks (main thread blocked over 50 ms) as Chromium reports them, from the start; and
@@ -203,6 +213,8 @@ def measure(context: Any, sid: str, drop: str, first: str, drawn: str, kind: str
     # resource timing, in ms).
     server = max(timing["responseStart"] - timing["requestStart"], 0.0) / 1000
     fragment = len(answer.value.body())
+    spans = server_spans(answer.value.headers.get("server-timing", ""))
+    analysis = float(answer.value.json().get("seconds") or 0.0)
     nodes = int(got["nodes"])
     rank = int(page.get_attribute("#workspace", "data-rank") or 0)
     page.close()
@@ -213,7 +225,21 @@ def measure(context: Any, sid: str, drop: str, first: str, drawn: str, kind: str
     draw = max(done - max(swapped, end), 0.0) / 1000 if swapped > end else 0.0
     return Figures(rank, shipped, float(got["ready"]), float(got["blocked"]), figures, sort, nodes,
                    (done - t0) / 1000, server, fragment, download, swap, draw,
-                   int(seen["later"]))
+                   int(seen["later"]), spans.get("change", 0.0), spans.get("page", 0.0),
+                   analysis)
+
+
+def server_spans(header: str) -> dict[str, float]:
+    """Seconds by name from a Server-Timing header ("change;dur=812.3, page;dur=80.1")."""
+    out: dict[str, float] = {}
+    for part in header.split(","):
+        name, _, rest = part.strip().partition(";")
+        if rest.startswith("dur="):
+            try:
+                out[name] = float(rest[4:]) / 1000
+            except ValueError:
+                continue
+    return out
 
 
 def prepare(base: str, path: Path, response: str) -> tuple[str, float]:
@@ -247,6 +273,9 @@ def line(name: str, f: Figures, base: Figures | None) -> str:
             f"  VIF table sorted by name       {f.sort:8.3f} s{ratio(f.sort, b.sort)}\n"
             f"  change: click to repainted     {f.repaint:8.3f} s{ratio(f.repaint, b.repaint)}\n"
             f"    of which the server          {f.server:8.3f} s\n"
+            f"      the change (analysis, store) {f.change:6.3f} s"
+            f" (the analysis {f.analysis:.3f} s)\n"
+            f"      page fragment and answer   {f.page:8.3f} s\n"
             f"    in the browser               {f.repaint - f.server:8.3f} s"
             f"{ratio(f.repaint - f.server, b.repaint - b.server)}\n"
             f"      answer arriving            {f.download:8.3f} s\n"
@@ -292,10 +321,10 @@ def main(argv: list[str] | None = None) -> int:
                   flush=True)
         finally:
             browser.close()
-    goals = {"shipped_mb": big.shipped / 1e6, "ready_s": big.ready,
-             "repaint_s": big.repaint - big.server}
-    print("goals at the issue's size (20,000 × 1,000; the repaint without the server's "
-          "share):")
+    goals = {"shipped_mb": big.shipped / 1e6, "ready_s": big.ready, "server_s": big.server,
+             "repaint_s": big.repaint, "browser_s": big.repaint - big.server}
+    print("goals at the issue's size (20,000 × 1,000; the change: server, click to repainted, "
+          "the browser's share):")
     for key, value in goals.items():
         print(f"  {key:<12} {value:8.3f}  goal ≤ {GOALS[key]:g}  "
               f"{'met' if value <= GOALS[key] else 'not met'}")
