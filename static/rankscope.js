@@ -399,10 +399,11 @@
     if (!fig) {
       // A kept figure (wide page) whose data is gone is cleared, not left showing the old.
       if (el.classList.contains("js-plotly-plot")) window.Plotly.purge(el);
+      shown.delete(el);
       return;
     }
     drawSoon(el, () => window.Plotly.react(el, fig.data, fig.layout,
-      { responsive: true, displaylogo: false, modeBarButtonsToRemove: ["sendDataToCloud"] }));
+      { responsive: true, displaylogo: false, modeBarButtonsToRemove: ["sendDataToCloud"] }), fig);
   }
 
   // ---- figures of a wide page: drawn when they come near the view ---------------------
@@ -423,14 +424,19 @@
     return out;
   }
 
-  // Drawings waiting for their figure to come near the view, by element.
+  // Drawings waiting for their figure to come near the view, by element; and the figure
+  // (as JSON text) each kept element shows.
   const unseen = new Map();
+  const shown = new WeakMap();
   let seer = null;
 
-  function drawNow(el, plot) {
+  function drawNow(el, plot, key) {
     unseen.delete(el);
     if (seer) seer.unobserve(el);
-    Promise.resolve(plot()).catch(() => {}).then(() => {
+    shown.delete(el);
+    let done;
+    try { done = Promise.resolve(plot()); } catch (e) { done = Promise.reject(e); }
+    done.then(() => { if (key !== undefined) shown.set(el, key); }).catch(() => {}).then(() => {
       if (!unseen.has(el)) delete el.dataset.pending;
     });
   }
@@ -438,7 +444,9 @@
   // plot() now on a narrow page (as it always was); on a wide one, once the figure is
   // within 300 px of the view (a figure nobody scrolls to is never drawn again), so a
   // change repaints what is on screen first. data-pending marks a figure not yet drawn.
-  function drawSoon(el, plot) {
+  // fig: the figure plot() draws; a kept element that shows it already is left as it is (a
+  // basis choice or a ridge penalty leaves the correlations, say, as they were).
+  function drawSoon(el, plot, fig) {
     if (!isWide(document.getElementById("workspace")) || !("IntersectionObserver" in window)) {
       plot();
       return;
@@ -446,15 +454,22 @@
     unseen.forEach((fn, other) => {  // figures swapped out before they were drawn
       if (!other.isConnected) { unseen.delete(other); if (seer) seer.unobserve(other); }
     });
+    const key = fig === undefined ? undefined : JSON.stringify(fig);
+    if (key !== undefined && shown.get(el) === key && el.classList.contains("js-plotly-plot")) {
+      unseen.delete(el);
+      if (seer) seer.unobserve(el);
+      delete el.dataset.pending;
+      return;
+    }
     el.dataset.pending = "1";
-    unseen.set(el, plot);
+    unseen.set(el, { plot: plot, key: key });
     if (!seer) {
       seer = new IntersectionObserver((entries) => {
         entries.forEach((e) => {
-          const fn = unseen.get(e.target);
-          if (!e.isIntersecting || !fn) return;
+          const job = unseen.get(e.target);
+          if (!e.isIntersecting || !job) return;
           if (!e.target.isConnected) { unseen.delete(e.target); seer.unobserve(e.target); return; }
-          drawNow(e.target, fn);
+          drawNow(e.target, job.plot, job.key);
         });
       }, { rootMargin: "300px 0px" });
     }

@@ -228,7 +228,7 @@
       if (!el.isConnected) return;
       // Drawn once it comes near the view (rankscope.js); in place when it was drawn before.
       const rs = window.rankscope;
-      if (rs && rs.drawSoon) rs.drawSoon(el, draw); else draw();
+      if (rs && rs.drawSoon) rs.drawSoon(el, draw, fig); else draw();
     });
   }
 
