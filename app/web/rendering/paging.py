@@ -20,6 +20,7 @@ from rankscope.report.export import neutralize
 from rankscope.tables.errors import InputError
 from rankscope.web.rendering.views import infinite_num, num, p_value
 from rankscope.web.rendering.wide import kept
+from rankscope.web.rendering.wide import matrix as correlation_array
 
 #: Rows a page shows unless asked for another number, and the most a page may hold.
 PAGE_ROWS = 25
@@ -269,13 +270,12 @@ PAIR_COLUMNS = [Column("a", "Column", number=False, sortable=False),
 def _pairs(d: dict[str, Any]) -> tuple[list[str], np.ndarray, np.ndarray, np.ndarray]:
     corr = d.get("correlations") or {}
     names = list(corr.get("columns") or [])
-    matrix = corr.get("pearson")
 
     def make() -> tuple[list[str], np.ndarray, np.ndarray, np.ndarray]:
-        if matrix is None or len(names) < 2:
+        if corr.get("pearson") is None or len(names) < 2:
             empty = np.zeros(0, dtype=int)
             return names, empty, empty, np.zeros(0)
-        C = np.asarray(matrix, dtype=np.float64)
+        C = correlation_array(corr, "pearson")  # the array the lead section's structure made
         iu, ju = np.triu_indices(len(names), k=1)
         return names, iu, ju, C[iu, ju]
 
