@@ -189,10 +189,38 @@ def _fit_rows(d: dict[str, Any]) -> list[Row]:
     return rows
 
 
+# ---- ridge ------------------------------------------------------------------------------
+def _ridge_columns(d: dict[str, Any]) -> list[Column]:
+    return [Column("column", "Column", number=False), Column("ridge", "Ridge coefficient"),
+            Column("least_squares", "Least squares")]
+
+
+def _ridge_rows(d: dict[str, Any]) -> list[Row]:
+    """The coefficients at the chosen penalty beside the least-squares ones, the constant
+    first (as on the page of a narrow design)."""
+    chosen = (d.get("ridge") or {}).get("chosen")
+    if not chosen:
+        return []
+    ls = (d.get("fit") or {}).get("coefficients") or {}
+    pairs = list(chosen["coefficients"].items())
+    if chosen.get("constant") is not None:
+        pairs.insert(0, ("(intercept)", chosen["constant"]))
+    rows = []
+    for c, v in pairs:
+        values = {"column": c.lower(), "ridge": _f(v), "least_squares": _f(ls.get(c))}
+        rows.append(Row(partial(_ridge_cells, c, values), values, c))
+    return rows
+
+
+def _ridge_cells(c: str, values: dict[str, Any]) -> list[str]:
+    return [c, num(values["ridge"]), num(values["least_squares"])]
+
+
 TABLES: dict[str, Table] = {
     "vif": Table("Variance inflation", _vif_columns, ("vif", "desc"), _vif_rows),
     "indices": Table("Condition indices", _index_columns, ("index", "desc"), _index_rows),
     "fit": Table("Fit", _fit_columns, ("column", "asc"), _fit_rows),
+    "ridge": Table("Ridge", _ridge_columns, ("column", "asc"), _ridge_rows),
 }
 
 #: Every paged table, with the correlation pairs (made from the matrix, not row by row).
