@@ -442,8 +442,9 @@
   }
 
   // plot() now on a narrow page (as it always was); on a wide one, once the figure is
-  // within 300 px of the view (a figure nobody scrolls to is never drawn again), so a
-  // change repaints what is on screen first. data-pending marks a figure not yet drawn.
+  // within 300 px of the view (until then a kept figure shows its last drawing, out of
+  // sight), so a change repaints what is on screen first. data-pending marks a figure
+  // not yet drawn with the state shown.
   // fig: the figure plot() draws; a kept element that shows it already is left as it is (a
   // basis choice or a ridge penalty leaves the correlations, say, as they were).
   function drawSoon(el, plot, fig) {
