@@ -286,8 +286,20 @@
     catchUp();
   }
 
+  // A revision is "version-microseconds": the version grows with every change, the time
+  // with anything else shown (a title, a pin).
+  function newer(a, b) {
+    const [va, ta] = String(a).split("-").map(Number);
+    const [vb, tb] = String(b).split("-").map(Number);
+    if (!Number.isFinite(va) || !Number.isFinite(vb)) return a !== b;
+    return va > vb || (va === vb && ta > tb);
+  }
+
+  // Fetch the workspace again only when the feed announced a state newer than the one
+  // shown: an announcement this page's own change already brought (the feed may say so
+  // before or after the answer comes) asks for nothing.
   function catchUp() {
-    if (!busy && !refreshing && announced && announced !== currentRevision()) refresh();
+    if (!busy && !refreshing && announced && newer(announced, currentRevision())) refresh();
   }
 
   function announce(revision) {
@@ -327,9 +339,18 @@
       .map((d) => d.open);
     // A change by someone else must not wipe what this user is in the middle of typing.
     const typed = fromOthers ? typedValues(old) : {};
+    // A wide page keeps its drawn figures: Plotly.react then updates each in place (and
+    // only once it comes near the view) instead of building it again from nothing.
+    const kept = isWide(old) ? drawnFigures(old) : {};
     const holder = document.createElement("div");
     holder.innerHTML = html;
     const fresh = holder.firstElementChild;
+    if (isWide(fresh)) {
+      Object.keys(kept).forEach((id) => {
+        const empty = fresh.querySelector("#" + id);
+        if (empty) empty.replaceWith(kept[id]);
+      });
+    }
     old.replaceWith(fresh);
     Object.keys(typed).forEach((id) => {
       const el = document.getElementById(id);
@@ -374,9 +395,87 @@
 
   function draw(id, fig) {
     const el = document.getElementById(id);
-    if (!el || !fig || !window.Plotly) return;
-    window.Plotly.react(el, fig.data, fig.layout,
-      { responsive: true, displaylogo: false, modeBarButtonsToRemove: ["sendDataToCloud"] });
+    if (!el || !window.Plotly) return;
+    if (!fig) {
+      // A kept figure (wide page) whose data is gone is cleared, not left showing the old.
+      if (el.classList.contains("js-plotly-plot")) window.Plotly.purge(el);
+      shown.delete(el);
+      return;
+    }
+    drawSoon(el, () => window.Plotly.react(el, fig.data, fig.layout,
+      { responsive: true, displaylogo: false, modeBarButtonsToRemove: ["sendDataToCloud"] }), fig);
+  }
+
+  // ---- figures of a wide page: drawn when they come near the view ---------------------
+  // The figures a wide page redraws after each change that can keep their element (the
+  // one block's own heatmap is fetched again by wide.js, so it is not among them).
+  const KEPT_FIGURES = ["fig-inflation", "fig-spectrum", "fig-ridge", "fig-blocks"];
+
+  function isWide(root) {
+    return !!(root && root.querySelector(".paged"));
+  }
+
+  function drawnFigures(root) {
+    const out = {};
+    KEPT_FIGURES.forEach((id) => {
+      const el = root.querySelector("#" + id);
+      if (el && el.classList.contains("js-plotly-plot")) out[id] = el;
+    });
+    return out;
+  }
+
+  // Drawings waiting for their figure to come near the view, by element; and the figure
+  // (as JSON text) each kept element shows.
+  const unseen = new Map();
+  const shown = new WeakMap();
+  let seer = null;
+
+  function drawNow(el, plot, key) {
+    unseen.delete(el);
+    if (seer) seer.unobserve(el);
+    shown.delete(el);
+    let done;
+    try { done = Promise.resolve(plot()); } catch (e) { done = Promise.reject(e); }
+    done.then(() => { if (key !== undefined) shown.set(el, key); }).catch(() => {}).then(() => {
+      if (!unseen.has(el)) delete el.dataset.pending;
+    });
+  }
+
+  // plot() now on a narrow page (as it always was); on a wide one, once the figure is
+  // within 300 px of the view (until then a kept figure shows its last drawing, out of
+  // sight), so a change repaints what is on screen first. data-pending marks a figure
+  // not yet drawn with the state shown.
+  // fig: the figure plot() draws; a kept element that shows it already is left as it is (a
+  // basis choice or a ridge penalty leaves the correlations, say, as they were).
+  function drawSoon(el, plot, fig) {
+    if (!isWide(document.getElementById("workspace")) || !("IntersectionObserver" in window)) {
+      plot();
+      return;
+    }
+    unseen.forEach((fn, other) => {  // figures swapped out before they were drawn
+      if (!other.isConnected) { unseen.delete(other); if (seer) seer.unobserve(other); }
+    });
+    const key = fig === undefined ? undefined : JSON.stringify(fig);
+    if (key !== undefined && shown.get(el) === key && el.classList.contains("js-plotly-plot")) {
+      unseen.delete(el);
+      if (seer) seer.unobserve(el);
+      delete el.dataset.pending;
+      return;
+    }
+    el.dataset.pending = "1";
+    unseen.set(el, { plot: plot, key: key });
+    if (!seer) {
+      seer = new IntersectionObserver((entries) => {
+        entries.forEach((e) => {
+          const job = unseen.get(e.target);
+          if (!e.isIntersecting || !job) return;
+          if (!e.target.isConnected) { unseen.delete(e.target); seer.unobserve(e.target); return; }
+          drawNow(e.target, job.plot, job.key);
+        });
+      }, { rootMargin: "300px 0px" });
+    }
+    seer.unobserve(el); // observed again: its first report comes with the new drawing
+    seer.observe(el);
   }
 
   function drawFigures() {
@@ -602,7 +701,7 @@
 
   // What the live feed (live.js) needs from this file.
   window.rankscope = { announce: announce, notify: notify, revision: currentRevision,
-    drawFigures: drawFigures };
+    drawFigures: drawFigures, drawSoon: drawSoon };
 
   setupUpload();
   drawFigures();

@@ -205,16 +205,15 @@
   }
 
   function plot(el, fig) {
-    window.Plotly.react(el, fig.data, fig.layout,
+    return window.Plotly.react(el, fig.data, fig.layout,
       { responsive: true, displaylogo: false, modeBarButtonsToRemove: ["sendDataToCloud"] });
   }
 
   function drawSummary(fig) {
     const el = document.getElementById("fig-blocks");
     if (!el || !fig) return;
-    whenPlotly(() => {
-      if (!el.isConnected) return;
-      plot(el, fig);
+    const draw = () => {
+      const done = plot(el, fig);
       if (!el.dataset.clicks) {
         el.dataset.clicks = "1";
         // A click on a cell opens the block of its row.
@@ -223,6 +222,13 @@
           if (pt && Array.isArray(pt.pointNumber)) showBlock(pt.pointNumber[0] + 1);
         });
       }
+      return done;
+    };
+    whenPlotly(() => {
+      if (!el.isConnected) return;
+      // Drawn once it comes near the view (rankscope.js); in place when it was drawn before.
+      const rs = window.rankscope;
+      if (rs && rs.drawSoon) rs.drawSoon(el, draw, fig); else draw();
     });
   }
 

@@ -1,5 +1,6 @@
 """Benchmark: the design page of a wide design in headless Chromium: bytes shipped, time until
-ready for input, one change from click to repainted page; the demo page measured alongside.
+ready for input, one change from click to repainted page (the server's share split by its
+Server-Timing header, the browser's by the page's clock); the demo page measured alongside.
 
 Drives a real server (a child process) with Playwright (python -m rankscope.benchmarks.page);
 asserts nothing.
@@ -25,8 +26,11 @@ DEMO = ROOT / "demo_data" / "cold_storage.csv"
 CHROMIUM = Path("/usr/bin/chromium")
 FLAGS = ["--headless", "--no-sandbox", "--disable-gpu", "--disable-background-networking"]
 
-#: The goals of the page at 20,000 × 1,000 (the issue's table): MB shipped, seconds.
-GOALS = {"shipped_mb": 2.0, "ready_s": 2.0, "repaint_s": 2.0}
+#: The goals of the page at 20,000 × 1,000 (the issue's table): MB shipped, seconds; a change
+#: within 1 s of the server's time and 2 s from the click to the repainted page (server
+#: included), and the browser's share of it alone within 2 s (the earlier goal).
+GOALS = {"shipped_mb": 2.0, "ready_s": 2.0, "server_s": 1.0, "repaint_s": 2.0,
+         "browser_s": 2.0}
 
 
 def wide_table(folder: Path, rows: int, levels: int, seed: int = 3) -> Path:
@@ -73,11 +77,27 @@ class Figures:
     repaint: float
     server: float
     fragment: int
+    #: The browser's share of the change, in order: the answer's bytes arriving after its
+    #: first byte, the fragment put in place (JSON read, old workspace replaced), then the
+    #: figures in view drawn and the page painted; and the figures left for later (drawn
+    #: when scrolled to).
+    download: float = 0.0
+    swap: float = 0.0
+    draw: float = 0.0
+    later: int = 0
+    #: The server's share as its Server-Timing header tells it: the change (checks, its
+    #: analysis, the store's write) and the page fragment with the rest of the answer; and
+    #: the analysis' own seconds (the answer's `seconds`).
+    change: float = 0.0
+    page: float = 0.0
+    analysis: float = 0.0
 
 
-# Long tasks (main thread blocked over 50 ms) as Chromium reports them, from the start.
+# Long tasks (main thread blocked over 50 ms) as Chromium reports them, from the start; and
+# when the page last put a fragment in place (rankscope.js announces each swap).
 WATCH = """
 window.__long = [];
+document.addEventListener("rankscope:swapped", () => { window.__swapped = performance.now(); });
 try {
   new PerformanceObserver((list) => {
     for (const e of list.getEntries()) window.__long.push([e.startTime, e.duration]);
@@ -114,15 +134,30 @@ SCROLLED = """async ([selector, quiet]) => {
   return (Math.max(seen, lastEnd()) - t0) / 1000;
 }"""
 
+# Repainted: the new workspace is in place, `selector` is there, and every figure in view is
+# drawn (a wide page draws a figure when it comes near the view; data-pending marks one not
+# yet drawn), then one more frame. The moment, the answer's arrival (resource timing of the
+# change's request), the swap, and the figures still waiting out of view.
 REPAINTED = """async ([version, selector]) => {
   const frame = () => new Promise((r) => requestAnimationFrame(() => setTimeout(r, 0)));
+  const inView = (el) => {
+    const r = el.getBoundingClientRect();
+    return r.width > 0 && r.bottom > 0 && r.top < window.innerHeight;
+  };
+  const waiting = () => Array.from(document.querySelectorAll(".figure[data-pending]"));
   while (true) {
     const ws = document.getElementById("workspace");
-    if (ws && ws.dataset.version !== version && document.querySelector(selector)) break;
+    if (ws && ws.dataset.version !== version && document.querySelector(selector) &&
+        !waiting().some(inView)) break;
     await frame();
   }
   await frame();
-  return performance.now();
+  const done = performance.now();
+  const sent = performance.getEntriesByType("resource")
+    .filter((e) => e.name.includes("/changes")).pop();
+  return { done: done, responseStart: sent ? sent.responseStart : 0,
+           responseEnd: sent ? sent.responseEnd : 0, swapped: window.__swapped || 0,
+           later: waiting().length };
 }"""
 
 
@@ -171,17 +206,40 @@ def measure(context: Any, sid: str, drop: str, first: str, drawn: str, kind: str
                               and "/changes" in r.url) as answer:
         t0 = page.evaluate("performance.now()")
         page.click(f'button[aria-label="Drop {drop}"]')
-    done = page.evaluate(REPAINTED, [version, drawn])
+    seen = page.evaluate(REPAINTED, [version, drawn])
+    done = float(seen["done"])
     timing = answer.value.request.timing
     # Server share: from the request sent to the first byte of the answer (Playwright's
     # resource timing, in ms).
     server = max(timing["responseStart"] - timing["requestStart"], 0.0) / 1000
     fragment = len(answer.value.body())
+    spans = server_spans(answer.value.headers.get("server-timing", ""))
+    analysis = float(answer.value.json().get("seconds") or 0.0)
     nodes = int(got["nodes"])
     rank = int(page.get_attribute("#workspace", "data-rank") or 0)
     page.close()
+    # The browser's share, split at the answer's last byte and at the swap (page clock, ms).
+    end, swapped = float(seen["responseEnd"]), float(seen["swapped"])
+    download = max(end - float(seen["responseStart"]), 0.0) / 1000 if end else 0.0
+    swap = max(swapped - end, 0.0) / 1000 if end and swapped > end else 0.0
+    draw = max(done - max(swapped, end), 0.0) / 1000 if swapped > end else 0.0
     return Figures(rank, shipped, float(got["ready"]), float(got["blocked"]), figures, sort, nodes,
-                   (done - t0) / 1000, server, fragment)
+                   (done - t0) / 1000, server, fragment, download, swap, draw,
+                   int(seen["later"]), spans.get("change", 0.0), spans.get("page", 0.0),
+                   analysis)
+
+
+def server_spans(header: str) -> dict[str, float]:
+    """Seconds by name from a Server-Timing header ("change;dur=812.3, page;dur=80.1")."""
+    out: dict[str, float] = {}
+    for part in header.split(","):
+        name, _, rest = part.strip().partition(";")
+        if rest.startswith("dur="):
+            try:
+                out[name] = float(rest[4:]) / 1000
+            except ValueError:
+                continue
+    return out
 
 
 def prepare(base: str, path: Path, response: str) -> tuple[str, float]:
@@ -215,8 +273,15 @@ def line(name: str, f: Figures, base: Figures | None) -> str:
             f"  VIF table sorted by name       {f.sort:8.3f} s{ratio(f.sort, b.sort)}\n"
             f"  change: click to repainted     {f.repaint:8.3f} s{ratio(f.repaint, b.repaint)}\n"
             f"    of which the server          {f.server:8.3f} s\n"
+            f"      the change (analysis, store) {f.change:6.3f} s"
+            f" (the analysis {f.analysis:.3f} s)\n"
+            f"      page fragment and answer   {f.page:8.3f} s\n"
             f"    in the browser               {f.repaint - f.server:8.3f} s"
             f"{ratio(f.repaint - f.server, b.repaint - b.server)}\n"
+            f"      answer arriving            {f.download:8.3f} s\n"
+            f"      fragment put in place      {f.swap:8.3f} s\n"
+            f"      figures in view, painted   {f.draw:8.3f} s"
+            f" ({f.later} figure(s) drawn when scrolled to)\n"
             f"  change's answer (fragment)     {f.fragment / 1e6:8.3f} MB")
 
 
@@ -256,10 +321,10 @@ def main(argv: list[str] | None = None) -> int:
                   flush=True)
         finally:
             browser.close()
-    goals = {"shipped_mb": big.shipped / 1e6, "ready_s": big.ready,
-             "repaint_s": big.repaint - big.server}
-    print("goals at the issue's size (20,000 × 1,000; the repaint without the server's "
-          "share):")
+    goals = {"shipped_mb": big.shipped / 1e6, "ready_s": big.ready, "server_s": big.server,
+             "repaint_s": big.repaint, "browser_s": big.repaint - big.server}
+    print("goals at the issue's size (20,000 × 1,000; the change: server, click to repainted, "
+          "the browser's share):")
     for key, value in goals.items():
         print(f"  {key:<12} {value:8.3f}  goal ≤ {GOALS[key]:g}  "
               f"{'met' if value <= GOALS[key] else 'not met'}")

@@ -260,9 +260,16 @@ def influence_chart(influence: dict) -> Figure | None:
     }
 
 
-def ridge_trace(diagnosis: dict) -> Figure | None:
+def _scaled_path(path: list[float]) -> list[float]:
+    big = max((abs(v) for v in path), default=0.0)
+    return [v / big if big > 0 else 0.0 for v in path]
+
+
+def ridge_trace(diagnosis: dict, limit: int | None = None) -> Figure | None:
     """Ridge coefficients along the penalty grid, each divided by its largest size on the
-    path so columns of any unit share one axis; the chosen penalty is marked."""
+    path so columns of any unit share one axis; the chosen penalty is marked. limit: draw
+    only that many columns, those whose scaled path moves most (a wide design's thousand
+    lines would hide one another)."""
     ridge = diagnosis.get("ridge")
     if not ridge or not ridge.get("columns"):
         return None
@@ -271,12 +278,21 @@ def ridge_trace(diagnosis: dict) -> Figure | None:
     positive = [x for x in pens if x > 0]
     zero_at = (min(positive) / 10) if positive else 1e-5
     xs = [x if x > 0 else zero_at for x in pens]
+    columns = list(ridge["columns"])
+    scaled = {col: _scaled_path(ridge["coefficients"][col]) for col in columns}
+    title = "Ridge path: each coefficient over its largest size"
+    if limit is not None and len(columns) > limit:
+        moved = sorted(columns, key=lambda c: -(max(scaled[c], default=0.0)
+                                                 - min(scaled[c], default=0.0)))
+        chosen_set = set(moved[:limit])
+        title = (f"Ridge path of the {limit} of {len(columns):,} columns that move most: "
+                 "each coefficient over its largest size")
+        columns = [c for c in columns if c in chosen_set]
     traces = []
     palette = [TEAL, BRICK, AMBER, INK, TEAL_LIGHT, "#6d5a8f", "#4b7f3a", "#8f5a3c"]
-    for i, col in enumerate(ridge["columns"]):
+    for i, col in enumerate(columns):
         path = ridge["coefficients"][col]
-        big = max((abs(v) for v in path), default=0.0)
-        ys = [v / big if big > 0 else 0.0 for v in path]
+        ys = scaled[col]
         traces.append({
             "type": "scatter", "mode": "lines", "x": xs, "y": ys, "name": plot_text(col),
             "line": {"color": palette[i % len(palette)], "width": 1.6},
@@ -295,7 +311,7 @@ def ridge_trace(diagnosis: dict) -> Figure | None:
     return {
         "data": traces,
         "layout": _layout(
-            "Ridge path: each coefficient over its largest size",
+            title,
             xaxis=_axis("penalty λ (log scale; the left end is λ = 0)", type="log"),
             yaxis=_axis("coefficient ÷ its largest size", range=[-1.05, 1.05]),
             shapes=shapes,

@@ -119,6 +119,9 @@ def test_wide_page_leads_sorts_and_redraws(wide_page) -> None:
     page.wait_for_selector("#fig-blocks .main-svg")
 
     # A change redraws; the fragment it answers with stays small; the table keeps its order.
+    fetched: list[str] = []
+    page.on("request", lambda r: fetched.append(r.url))
+    before = page.get_attribute("#workspace", "data-revision")
     with page.expect_response(lambda r: r.request.method == "POST"
                               and "/changes" in r.url) as answer:
         page.click('button[aria-label="Drop noise"]')
@@ -129,3 +132,20 @@ def test_wide_page_leads_sorts_and_redraws(wide_page) -> None:
     assert f"of {columns - 1} columns" in page.locator(".card-sub").first.inner_text()
     page.wait_for_selector("#fig-blocks .main-svg")
     page.wait_for_selector('#fig-block[data-block] .main-svg')
+    # Every figure shows the new state once in view (one out of view is drawn when scrolled
+    # to), and the page's own change is not fetched a second time through the live feed.
+    shows_new = """([id, key]) => {
+      const el = document.getElementById(id);
+      const figs = JSON.parse(document.getElementById("figure-data").textContent);
+      return !el.dataset.pending && !!el.data &&
+        JSON.stringify(el.data[0].z || el.data[0].y) ===
+        JSON.stringify(figs[key].data[0].z || figs[key].data[0].y);
+    }"""
+    page.wait_for_function(shows_new, arg=["fig-blocks", "blocks-pearson"])
+    page.locator("#sec-spectrum").scroll_into_view_if_needed()
+    page.wait_for_function(shows_new, arg=["fig-spectrum", "spectrum"])
+    # The feed may announce the state before this change after the change's own answer
+    # came: that asks for nothing.
+    page.evaluate("(r) => window.rankscope.announce(r)", before)
+    page.wait_for_timeout(500)
+    assert not [u for u in fetched if u.endswith("/workspace")]

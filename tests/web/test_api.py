@@ -120,6 +120,18 @@ def test_undo_redo_walk_the_history(client, sid, table) -> None:
     assert r.status_code == 400 and "nothing to redo" in r.json()["error"]
 
 
+def test_a_change_says_where_the_servers_time_went(client, sid) -> None:
+    """The answer to a change or an undo carries a Server-Timing header (reference: W3C
+    Server Timing, the server-timing-metric grammar name;dur=milliseconds)."""
+    for r in (step(client, sid, {"step": "drop", "column": "temp_f"}),
+              client.post(f"/api/s/{sid}/undo")):
+        assert r.status_code == 200
+        spans = dict(part.strip().split(";dur=") for part in
+                     r.headers["server-timing"].split(","))
+        assert set(spans) == {"change", "page"}
+        assert all(float(v) >= 0 for v in spans.values())
+
+
 @pytest.mark.parametrize("payload", [
     {"step": "drop", "column": "no_such_column"},
     {"step": "log", "column": "temp_c"},  # temp_c has values ≤ 0 (°C below freezing)

@@ -237,6 +237,36 @@ def test_blocks_summary_and_one_block(app_client, wide_sid) -> None:
     assert np.array(one["figure"]["data"][0]["z"]) == pytest.approx(rho, abs=1e-9)
 
 
+def test_ridge_on_a_wide_design_draws_the_paths_that_move_most(app_client, wide_sid) -> None:
+    """A ridge penalty on a thousand columns: the path figure draws the 30 paths that move
+    most (each scaled by its largest size, as the narrow page's), the coefficients come a
+    page at a time. Reference: the diagnosis' own ridge coefficients, ranked with numpy."""
+    r = step(app_client, wide_sid, {"penalty": 0.5}, kind="ridge")
+    try:
+        assert r.status_code == 200
+        html = r.json()["html"]
+        assert 'id="ridge-table"' not in html and 'data-table="ridge"' in html
+        ridge = app_client.get(f"/api/s/{wide_sid}/diagnosis").json()["ridge"]
+        spread = {}
+        for c in ridge["columns"]:
+            path = np.asarray(ridge["coefficients"][c], dtype=float)
+            big = np.max(np.abs(path))
+            scaled = path / big if big > 0 else np.zeros_like(path)
+            spread[c] = scaled.max() - scaled.min()
+        drawn = [t["name"] for t in figure_data(html)["ridge"]["data"]]
+        assert len(drawn) == 30
+        assert min(spread[c] for c in drawn) >= max(spread[c] for c in spread
+                                                    if c not in drawn)
+        chosen = ridge["chosen"]
+        first = page(app_client, wide_sid, "ridge", sort="ridge", order="desc")
+        assert first["total"] == len(chosen["coefficients"]) + 1  # and the constant
+        every = {**chosen["coefficients"], "(intercept)": chosen["constant"]}
+        top = sorted(every, key=lambda c: -every[c])[:25]
+        assert [row["column"] for row in first["rows"]] == top
+    finally:
+        step(app_client, wide_sid, {"penalty": None}, kind="ridge")
+
+
 def test_a_change_answers_a_wide_fragment_and_compares_what_changed(app_client,
                                                                     wide_sid) -> None:
     r = step(app_client, wide_sid, {"step": "drop", "column": "noise"})

@@ -59,14 +59,13 @@ class CompareRow:
         return f"grew {f:.3g}×"
 
 
-def _status(col: str, a: FitRef, b: FitRef) -> str:
-    in_a, in_b = col in a.columns, col in b.columns
-    if not in_a:
+def _status(col: str, in_a: set[str], in_b: set[str], aliased_a: set[str],
+            aliased_b: set[str]) -> str:
+    if col not in in_a:
         return "only_b"
-    if not in_b:
+    if col not in in_b:
         return "only_a"
-    al_a = col in a.fit.get("aliased", [])
-    al_b = col in b.fit.get("aliased", [])
+    al_a, al_b = col in aliased_a, col in aliased_b
     if al_a and al_b:
         return "aliased_both"
     if al_a:
@@ -79,6 +78,9 @@ def _status(col: str, a: FitRef, b: FitRef) -> str:
 def compare_fits(a: FitRef, b: FitRef) -> list[CompareRow]:
     """Rows for every column of either fit: B's order first, then A's leftovers."""
     order = list(dict.fromkeys([*b.columns, *a.columns]))
+    # Sets, not the lists: a wide design has a thousand columns, each looked up here.
+    sets = (set(a.columns), set(b.columns), set(a.fit.get("aliased", [])),
+            set(b.fit.get("aliased", [])))
     rows = []
     for col in order:
         ca = a.fit["coefficients"].get(col)
@@ -87,7 +89,7 @@ def compare_fits(a: FitRef, b: FitRef) -> list[CompareRow]:
         sb = b.fit["std_errors"].get(col)
         change = cb - ca if (ca is not None and cb is not None) else None
         factor = sb / sa if (sa is not None and sb is not None and sa > 0) else None
-        rows.append(CompareRow(col, ca, cb, change, sa, sb, factor, _status(col, a, b)))
+        rows.append(CompareRow(col, ca, cb, change, sa, sb, factor, _status(col, *sets)))
     return rows
 
 

@@ -11,6 +11,7 @@ import io
 import math
 from collections.abc import Callable, Iterator
 from dataclasses import asdict, dataclass
+from functools import partial
 from typing import Any
 
 import numpy as np
@@ -19,6 +20,7 @@ from rankscope.report.export import neutralize
 from rankscope.tables.errors import InputError
 from rankscope.web.rendering.views import infinite_num, num, p_value
 from rankscope.web.rendering.wide import kept
+from rankscope.web.rendering.wide import matrix as correlation_array
 
 #: Rows a page shows unless asked for another number, and the most a page may hold.
 PAGE_ROWS = 25
@@ -40,13 +42,19 @@ class Column:
 
 @dataclass(eq=False)
 class Row:
-    """One row: its shown cells, its sort values by key (None: no value, always last), the
-    design column it is about (or None) and its marks (CSS classes: infinite, flagged …)."""
+    """One row: its shown cells (made by `shown` when the row is on a page: a wide design
+    has a thousand rows, a page shows 25), its sort values by key (None: no value, always
+    last), the design column it is about (or None) and its marks (CSS classes: infinite,
+    flagged …)."""
 
-    cells: list[str]
+    shown: Callable[[], list[str]]
     values: dict[str, Any]
     column: str | None = None
     mark: str = ""
+
+    @property
+    def cells(self) -> list[str]:
+        return self.shown()
 
 
 @dataclass(frozen=True)
@@ -72,22 +80,29 @@ def _vif_columns(d: dict[str, Any]) -> list[Column]:
     return cols
 
 
+def _vif_cells(col: str, v: Any, tol: Any, se: Any, gvif: bool, g: str | None, gs: Any
+               ) -> list[str]:
+    cells = [col, infinite_num(v), num(tol), infinite_num(se)]
+    return cells + [num(gs) if g else "", g or ""] if gvif else cells
+
+
 def _vif_rows(d: dict[str, Any]) -> list[Row]:
     group_of = {c: g for g, info in (d.get("gvif") or {}).items() for c in info["columns"]}
     se = d.get("se_inflation") or {}
+    tolerance = d.get("tolerance") or {}
+    gvif = bool(d.get("gvif"))
     rows = []
     for col, v in (d.get("vif") or {}).items():
         g = group_of.get(col)
         gs = d["gvif"][g]["gvif_scaled"] if g else None
-        tol = (d.get("tolerance") or {}).get(col)
-        cells = [col, infinite_num(v), num(tol), infinite_num(se.get(col))]
+        tol = tolerance.get(col)
         values = {"column": col.lower(), "vif": math.inf if v is None else v,
                   "tolerance": _f(tol),
                   "se": math.inf if se.get(col) is None else se[col]}
-        if d.get("gvif"):
-            cells += [num(gs) if g else "", g or ""]
+        if gvif:
             values |= {"gvif": _f(gs), "group": (g or "").lower() or None}
-        rows.append(Row(cells, values, col, "infinite" if v is None else ""))
+        rows.append(Row(partial(_vif_cells, col, v, tol, se.get(col), gvif, g, gs), values,
+                        col, "infinite" if v is None else ""))
     return rows
 
 
@@ -129,7 +144,7 @@ def _index_rows(d: dict[str, Any]) -> list[Row]:
                  num(largest, 2) if largest is not None else "—", text]
         values = {"dimension": k, "index": math.inf if idx is None else idx,
                   "largest": largest, "names": [c.lower() for c, _ in high]}
-        rows.append(Row(cells, values, None, marks))
+        rows.append(Row(partial(list, cells), values, None, marks))
     return rows
 
 
@@ -142,34 +157,70 @@ def _fit_columns(d: dict[str, Any]) -> list[Column]:
     return cols
 
 
+def _fit_cells(c: str, values: dict[str, Any], aliased: bool, any_aliased: bool
+               ) -> list[str]:
+    if aliased:
+        cells = [c, "aliased", "—", "—", "—"]
+    else:
+        cells = [c, num(values["coefficient"]), num(values["se"]), num(values["t"], 3),
+                 p_value(values["p"])]
+    return cells + [num(values["min_norm"])] if any_aliased else cells
+
+
 def _fit_rows(d: dict[str, Any]) -> list[Row]:
     fit = d.get("fit")
     if not fit:
         return []
     aliased = set(fit.get("aliased") or [])
+    coefs, ses = fit["coefficients"], fit["std_errors"]
+    ts, ps = fit["t_values"], fit["p_values"]
+    min_norm = fit.get("min_norm") or {}
     rows = []
     for c in d["columns"]:
         if c in aliased:
-            cells = [c, "aliased", "—", "—", "—"]
             values: dict[str, Any] = {"column": c.lower()}
         else:
-            coef, se = fit["coefficients"].get(c), fit["std_errors"].get(c)
-            t, p = fit["t_values"].get(c), fit["p_values"].get(c)
-            cells = [c, num(coef), num(se), num(t, 3), p_value(p)]
-            values = {"column": c.lower(), "coefficient": _f(coef), "se": _f(se),
-                      "t": _f(t), "p": _f(p)}
+            values = {"column": c.lower(), "coefficient": _f(coefs.get(c)),
+                      "se": _f(ses.get(c)), "t": _f(ts.get(c)), "p": _f(ps.get(c))}
         if aliased:
-            mn = (fit.get("min_norm") or {}).get(c)
-            cells.append(num(mn))
-            values["min_norm"] = _f(mn)
-        rows.append(Row(cells, values, c, "aliased" if c in aliased else ""))
+            values["min_norm"] = _f(min_norm.get(c))
+        rows.append(Row(partial(_fit_cells, c, values, c in aliased, bool(aliased)), values, c,
+                        "aliased" if c in aliased else ""))
     return rows
+
+
+# ---- ridge ------------------------------------------------------------------------------
+def _ridge_columns(d: dict[str, Any]) -> list[Column]:
+    return [Column("column", "Column", number=False), Column("ridge", "Ridge coefficient"),
+            Column("least_squares", "Least squares")]
+
+
+def _ridge_rows(d: dict[str, Any]) -> list[Row]:
+    """The coefficients at the chosen penalty beside the least-squares ones, the constant
+    first (as on the page of a narrow design)."""
+    chosen = (d.get("ridge") or {}).get("chosen")
+    if not chosen:
+        return []
+    ls = (d.get("fit") or {}).get("coefficients") or {}
+    pairs = list(chosen["coefficients"].items())
+    if chosen.get("constant") is not None:
+        pairs.insert(0, ("(intercept)", chosen["constant"]))
+    rows = []
+    for c, v in pairs:
+        values = {"column": c.lower(), "ridge": _f(v), "least_squares": _f(ls.get(c))}
+        rows.append(Row(partial(_ridge_cells, c, values), values, c))
+    return rows
+
+
+def _ridge_cells(c: str, values: dict[str, Any]) -> list[str]:
+    return [c, num(values["ridge"]), num(values["least_squares"])]
 
 
 TABLES: dict[str, Table] = {
     "vif": Table("Variance inflation", _vif_columns, ("vif", "desc"), _vif_rows),
     "indices": Table("Condition indices", _index_columns, ("index", "desc"), _index_rows),
     "fit": Table("Fit", _fit_columns, ("column", "asc"), _fit_rows),
+    "ridge": Table("Ridge", _ridge_columns, ("column", "asc"), _ridge_rows),
 }
 
 #: Every paged table, with the correlation pairs (made from the matrix, not row by row).
@@ -247,13 +298,12 @@ PAIR_COLUMNS = [Column("a", "Column", number=False, sortable=False),
 def _pairs(d: dict[str, Any]) -> tuple[list[str], np.ndarray, np.ndarray, np.ndarray]:
     corr = d.get("correlations") or {}
     names = list(corr.get("columns") or [])
-    matrix = corr.get("pearson")
 
     def make() -> tuple[list[str], np.ndarray, np.ndarray, np.ndarray]:
-        if matrix is None or len(names) < 2:
+        if corr.get("pearson") is None or len(names) < 2:
             empty = np.zeros(0, dtype=int)
             return names, empty, empty, np.zeros(0)
-        C = np.asarray(matrix, dtype=np.float64)
+        C = correlation_array(corr, "pearson")  # the array the lead section's structure made
         iu, ju = np.triu_indices(len(names), k=1)
         return names, iu, ju, C[iu, ju]
 

@@ -117,7 +117,8 @@ def compare_context(analyst: Analyst, session: Session, a: str, b: str) -> dict[
 
 #: Rows the comparison of two fits of a wide design shows (those that changed most).
 COMPARE_ROWS = 30
-#: Bars of the VIF chart of a wide design (the largest VIFs; the table pages the rest).
+#: Bars of the VIF chart of a wide design (the largest VIFs; the table pages the rest),
+#: and lines of its ridge path (those that move most; the ridge table pages every one).
 FIGURE_BARS = 30
 
 
@@ -129,7 +130,7 @@ def wide_context(analysis: Analysis) -> dict[str, Any]:
     s = wide.structure(d)
     figures = {"spectrum": singular_value_spectrum(d),
                "inflation": inflation_bars(d, FIGURE_BARS),
-               "ridge": ridge_trace(d),
+               "ridge": ridge_trace(d, FIGURE_BARS),
                "blocks-pearson": wide.summary_figure(s) if s else None}
     deps = d["dependencies"]
     listed = []
@@ -147,7 +148,9 @@ def wide_context(analysis: Analysis) -> dict[str, Any]:
         "unlisted": len(deps) - len(listed),
         "figures": views.plain(figures),
         "pages": views.plain({"vif": paging.table_page(d, "vif"),
-                              "fit": paging.table_page(d, "fit") if d.get("fit") else None}),
+                              "fit": paging.table_page(d, "fit") if d.get("fit") else None,
+                              "ridge": paging.table_page(d, "ridge")
+                              if (d.get("ridge") or {}).get("chosen") else None}),
         "downloads": paging.DOWNLOADS,
     }
 
