@@ -13,14 +13,21 @@ import numpy as np
 from threadpoolctl import threadpool_limits
 
 from rankscope.core import conditioning as cnd
+from rankscope.core.basis import Basis
 from rankscope.core.correlation import cluster_order, pearson_from_factor, spearman
 from rankscope.core.dependencies import data_residual, null_vectors, relations
 from rankscope.core.factor import Factorization, factorize
 from rankscope.core.fit import fit_least_squares
-from rankscope.core.inflation import gvif, vif_from_factor
+from rankscope.core.inflation import gvif, triangular_inverse, vif_from_factor
 from rankscope.core.influence import leave_one_out
 from rankscope.core.numbers import finite_or_none
-from rankscope.core.rank import EPS, decide, default_tolerance
+from rankscope.core.rank import (
+    EPS,
+    certainly_full_rank,
+    decide,
+    default_tolerance,
+    null_by_inverse_iteration,
+)
 from rankscope.core.ridge import DEFAULT_GRID, ridge_path
 
 TOLERANCE_RULE = "σ_max(Xe)·max(n, p)·eps (Golub & Van Loan §5.4.1; as numpy.linalg.matrix_rank)"
@@ -174,6 +181,67 @@ def _side_spectra(F: Factorization, Zc: np.ndarray) -> Future:
     return _SIDE[0].submit(lambda: (F.singular_values_raw, cnd.singular_values(Zc)))
 
 
+#: Columns from which the rank decision takes the singular values of Xe without vectors
+#: when the design may be rank deficient, and its null space by inverse iteration: the
+#: vectors of a full SVD cost about as much again as the values (measured: 5.7 s against
+#: 2.8 s at 2,000 columns on one busy core), and a deficient design needs its basis
+#: columns' SVD besides. Narrower designs take the full SVD as before (a few ms).
+VALUES_FIRST_COLUMNS = 200
+
+Svd = tuple[np.ndarray | None, np.ndarray, np.ndarray | None]
+
+
+def rank_spectrum(F: Factorization, tol: float | None
+                  ) -> tuple[Svd, np.ndarray | None, float]:
+    """The singular values of Xe for the rank decision, with the vectors only where they
+    are needed, and the tolerance.
+
+    Returns (svd, null, tol): svd is (U, d, Vt) of Xe when computed in full (a design that
+    is certainly of full rank, whose index table then reuses it), else (None, d, None)
+    with `null` the null-space basis found by inverse iteration (rank.decide uses it in
+    place of the vectors). Either way d and the rank come from an SVD; which SVD is only a
+    question of cost (rank.certainly_full_rank, rank.null_by_inverse_iteration).
+    """
+    p = F.p
+
+    def tolerance(d: np.ndarray) -> float:
+        return float(tol) if tol is not None else default_tolerance(
+            d[0] if d.size else 0.0, F.n, p)
+
+    def full() -> tuple[Svd, None, float]:
+        svd = F.svd_eq
+        return svd, None, tolerance(svd[1])
+
+    if p < VALUES_FIRST_COLUMNS:
+        return full()
+    R = F.R_x_triangular
+    bound = float(tol) if tol is not None else float(np.linalg.norm(R)) * max(F.n, p) * EPS
+    if np.all(np.diagonal(R) != 0) and certainly_full_rank(triangular_inverse(R), bound):
+        return full()
+    d = F.singular_values_eq
+    tol_used = tolerance(d)
+    rank = int(np.sum(d > tol_used)) if d.size else 0
+    if rank == p:  # of full rank after all: the index table needs the vectors
+        return full()
+    found = null_by_inverse_iteration(R, d, rank, tol_used)
+    if found is None:
+        return full()
+    null = np.zeros_like(found)
+    null[F.x_order] = found  # R's columns are X's in x_order
+    return (None, d, None), null, tol_used
+
+
+def basis_svd(basis: Basis, columns: list[int]) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """SVD of the unit-length basis columns (in the given order) from the basis factor's
+    R11: the same singular values and right vectors as Xe's basis columns, an SVD of
+    k × k instead of p × k."""
+    at = {j: i for i, j in enumerate(basis.basis)}
+    M = basis.R11[:, [at[j] for j in columns]]
+    if M.size == 0:
+        return np.zeros((0, 0)), np.zeros(0), np.zeros((0, 0))
+    return np.linalg.svd(M, full_matrices=False)
+
+
 # Everything in diagnose_factor works on (p, p) matrices: BLAS threads only add contention
 # there (measured: a 100×100 SVD 50× slower with 2 threads on a busy 2-core machine).
 @threadpool_limits.wrap(limits=1, user_api="blas")
@@ -217,11 +285,10 @@ def diagnose_factor(
     nonconst = [j for j in range(p) if j not in consts and j not in F.zero_columns]
     Zc = cnd.unit_columns(cen, nonconst)
     spectra = _side_spectra(F, Zc) if p >= SIDE_SPECTRA_COLUMNS else None
-    sv_eq = F.svd_eq[1]
-    tol_used = float(tol) if tol is not None else default_tolerance(
-        sv_eq[0] if sv_eq.size else 0.0, F.n, p)
-    decision = decide(R_eq, F.svd_eq, priority_order(names, keep), tol_used, consts,
-                      rhs=F.R_xy[:p, p])
+    svd, null, tol_used = rank_spectrum(F, tol)
+    sv_eq = svd[1]
+    decision = decide(R_eq, svd, priority_order(names, keep), tol_used, consts,
+                      rhs=F.R_xy[:p, p], null=null)
     basis = decision.basis
     rank = decision.rank
     for j in F.zero_columns:
@@ -260,8 +327,9 @@ def diagnose_factor(
     # Index table of the basis design (an exact dimension would swamp every share), then
     # one exact row per relation with the columns of its equation.
     in_basis = sorted(basis.basis)
-    table = cnd.index_table(R_eq[:, in_basis], 0.0, index_threshold, proportion_threshold,
-                            svd=F.svd_eq if len(in_basis) == p else None)
+    table = cnd.index_table(
+        R_eq[:, in_basis], 0.0, index_threshold, proportion_threshold,
+        svd=svd if len(in_basis) == p and svd[2] is not None else basis_svd(basis, in_basis))
     shares = np.zeros((len(in_basis), p))
     shares[:, in_basis] = table.proportions
     props = [dict(zip(names, row, strict=True)) for row in shares.tolist()]

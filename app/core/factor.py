@@ -130,8 +130,7 @@ class Factorization:
         centred part exactly (see basis.basis_factor). y stays last: R[p, p] is what y
         keeps beyond every column of X.
         """
-        first = self.constant_columns
-        perm = first + [j for j in range(self.p) if j not in first] + [self.p]
+        perm = self.x_order + [self.p]
         # T_eq without its constant column is upper Hessenberg when the constant columns
         # lead X: r_factor then reduces one entry per column.
         R = r_factor(self.T_eq[:, 1:][:, perm])
@@ -151,10 +150,30 @@ class Factorization:
         return self.R_xy[: self.p, : self.p]
 
     @cached_property
+    def x_order(self) -> list[int]:
+        """The order in which R_xy reduced the X columns: constant columns first."""
+        first = self.constant_columns
+        return first + [j for j in range(self.p) if j not in first]
+
+    @cached_property
+    def R_x_triangular(self) -> np.ndarray:
+        """R_x with its columns in x_order: upper triangular (R_xy's own reduction order)."""
+        return np.triu(self.R_x[:, self.x_order])
+
+    @cached_property
     def svd_eq(self) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
         """(U, d, Vt) of R_x: the SVD of Xe, computed once for the rank, the condition
         indices and their proportions (Xe = Q·R_x shares d and V with R_x)."""
         return _svd(self.R_x)
+
+    @cached_property
+    def singular_values_eq(self) -> np.ndarray:
+        """(p,) singular values of Xe without vectors (those of svd_eq once it is made):
+        about half the work of the full SVD."""
+        if "svd_eq" in self.__dict__:
+            return self.svd_eq[1]
+        R = self.R_x_triangular
+        return np.linalg.svd(R, compute_uv=False) if R.size else np.zeros(0)
 
     @cached_property
     def singular_values_raw(self) -> np.ndarray:
