@@ -215,8 +215,13 @@ def rank_spectrum(F: Factorization, tol: float | None
     if p < VALUES_FIRST_COLUMNS:
         return full()
     R = F.R_x_triangular
-    bound = float(tol) if tol is not None else float(np.linalg.norm(R)) * max(F.n, p) * EPS
-    if np.all(np.diagonal(R) != 0) and certainly_full_rank(triangular_inverse(R), bound):
+    # ‖R‖_F/√p ≤ σ_max ≤ ‖R‖_F bound the default tolerance; σ_min ≤ min |r_jj| (the
+    # eigenvalues of a triangular matrix are its diagonal): a pivot at or below the lower
+    # bound makes R deficient without the inverse.
+    size = float(np.linalg.norm(R)) * max(F.n, p) * EPS
+    upper, lower = (float(tol), float(tol)) if tol is not None else (size, size / np.sqrt(p))
+    if (float(np.min(np.abs(np.diagonal(R)))) > lower
+            and certainly_full_rank(triangular_inverse(R), upper)):
         return full()
     d = F.singular_values_eq
     tol_used = tolerance(d)

@@ -157,8 +157,9 @@ class Factorization:
 
     @cached_property
     def R_x_triangular(self) -> np.ndarray:
-        """R_x with its columns in x_order: upper triangular (R_xy's own reduction order)."""
-        return np.triu(self.R_x[:, self.x_order])
+        """R_x with its columns in x_order: upper triangular (R_xy's own reduction order,
+        so exactly: no entry below the diagonal to clear)."""
+        return self.R_x[:, self.x_order]
 
     @cached_property
     def svd_eq(self) -> tuple[np.ndarray, np.ndarray, np.ndarray]:

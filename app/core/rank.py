@@ -76,9 +76,9 @@ NULL_SWEEPS = 5
 def null_by_inverse_iteration(R: np.ndarray, d: np.ndarray, rank: int, tol: float
                               ) -> np.ndarray | None:
     """(p, p − rank) orthonormal basis of the numerical null space of the upper triangular
-    R, from its singular values d (descending, without vectors) by subspace inverse
-    iteration; None when the gap is too narrow or the result fails its check (then the
-    caller takes the SVD's vectors).
+    R (nothing below its diagonal), from its singular values d (descending, without
+    vectors) by subspace inverse iteration; None when the gap is too narrow or the result
+    fails its check (then the caller takes the SVD's vectors).
 
     Spans the same space as the right singular vectors of d[rank:] to the rounding the
     SVD itself carries: R·N is checked to be at most 2·tol + p·eps·σ_max, so N leans on a
@@ -98,7 +98,7 @@ def null_by_inverse_iteration(R: np.ndarray, d: np.ndarray, rank: int, tol: floa
         NULL_SWEEPS, 1 + math.ceil(math.log(EPS) / (2 * math.log(ratio))))
     top = float(d[0])
     floor = EPS * top
-    T = np.triu(R)
+    T = R.copy()
     diag = np.diagonal(T).copy()
     small = np.abs(diag) < floor
     diag[small] = np.where(diag[small] < 0, -floor, floor)
@@ -113,7 +113,7 @@ def null_by_inverse_iteration(R: np.ndarray, d: np.ndarray, rank: int, tol: floa
             if not np.all(np.isfinite(Z)):
                 return None
             W, _ = np.linalg.qr(Z)
-    left = float(np.linalg.norm(np.triu(R) @ W, 2))
+    left = float(np.linalg.norm(R @ W, 2))
     return W if left <= 2 * tol + p * EPS * top else None
 
 
