@@ -40,12 +40,27 @@ def _blocks(X: np.ndarray, y: np.ndarray, sw: np.ndarray | None, shifts: np.ndar
         yield B
 
 
+#: Column lengths between these are taken from the plain sum of squares: no square of an
+#: entry can then have overflowed (entries below 1e150) and what underflowed (entries below
+#: 1e-154) is below the rounding of the sum. Outside, the column is scaled first.
+PLAIN_NORMS = (1e-140, 1e140)
+
+
 def column_norms(A: np.ndarray) -> np.ndarray:
-    """Euclidean length of each column, scaled by its largest entry first so that columns
-    near underflow (1e-200) or overflow (1e200) keep their length (as BLAS dnrm2 does)."""
-    big = np.max(np.abs(A), axis=0) if A.shape[0] else np.zeros(A.shape[1])
-    safe = np.where(big > 0, big, 1.0)
-    return np.linalg.norm(A / safe, axis=0) * big
+    """Euclidean length of each column, scaled by its largest entry first where the plain
+    sum of squares could under- or overflow (lengths near 1e-200 or 1e200 keep their
+    digits, as BLAS dnrm2 does); one pass over A for every other column."""
+    if A.shape[0] == 0:
+        return np.zeros(A.shape[1])
+    with np.errstate(over="ignore", under="ignore"):
+        out = np.linalg.norm(A, axis=0)
+    redo = ~((out >= PLAIN_NORMS[0]) & (out <= PLAIN_NORMS[1]))
+    if np.any(redo):
+        B = A[:, redo]
+        big = np.max(np.abs(B), axis=0)
+        safe = np.where(big > 0, big, 1.0)
+        out[redo] = np.linalg.norm(B / safe, axis=0) * big
+    return out
 
 
 def _svd(R: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:

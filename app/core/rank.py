@@ -213,7 +213,8 @@ def decide(
     rank = int(np.sum(d > tol)) if d.size else 0
     if null is None:
         null = Vt[rank:].T if p else np.zeros((0, 0))
-    zero = tuple(j for j in order if p and not np.any(A[:, j]))
+    empty = ~np.any(A, axis=0) if p else np.zeros(0, dtype=bool)
+    zero = tuple(j for j in order if empty[j])
     dependent = dependent_columns(null, order, floor=null_row_floor(d, rank, tol), first=zero)
     dep = set(dependent)
     basis = [j for j in order if j not in dep]

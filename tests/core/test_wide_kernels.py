@@ -273,3 +273,18 @@ def test_wide_rank_path_matches_the_full_svds() -> None:
     assert wide.vif == ref.vif or all(
         (a is None and b is None) or abs(a - b) <= 1e-9 * b
         for a, b in zip(wide.vif.values(), ref.vif.values(), strict=True))
+
+
+def test_column_norms_near_underflow_and_overflow() -> None:
+    import math
+
+    from rankscope.core.factor import column_norms
+
+    rng = np.random.default_rng(4)
+    A = rng.normal(size=(40, 7))
+    for j, scale in enumerate([1.0, 1e-200, 1e200, 0.0, 1e-150, 1e145, 1e-300]):
+        A[:, j] *= scale
+    # reference: math.hypot, which scales its arguments itself (no under- or overflow)
+    ref = np.array([math.hypot(*A[:, j]) for j in range(7)])
+    got = column_norms(A)
+    assert np.allclose(got, ref, rtol=1e-14, atol=0)
