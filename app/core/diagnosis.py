@@ -311,24 +311,6 @@ def diagnose_factor(
         involved.add(r.column)
         involved.update(r.combination)
 
-    # Condition numbers of raw, unit-length, and centered-and-scaled X.
-    if spectra is None:
-        sv_raw, sv_c = F.singular_values_raw, cnd.singular_values(Zc)
-    else:
-        sv_raw, sv_c = spectra.result()
-    # Centring removes the constant's direction from the span: the centred non-constant
-    # columns have rank rank(X) − 1 when the constant is in the span (explicitly or not),
-    # rank(X) otherwise; below their number they are deficient (the one rank decision).
-    cen_rank = rank - (1 if F.constant_in_span else 0)
-    cen_deficient = cen_rank < len(nonconst)
-    cond = {
-        # Raw scale: no tolerance of its own; infinite exactly when X is rank deficient.
-        "raw": finite_or_none(cnd.condition_number(sv_raw, 0.0 if rank == p else np.inf)),
-        "equilibrated": finite_or_none(cnd.condition_number(sv_eq, tol_used)),
-        "centered": (finite_or_none(cnd.condition_number(sv_c, np.inf if cen_deficient
-                                                          else 0.0)) if sv_c.size else None),
-    }
-
     # Index table of the basis design (an exact dimension would swamp every share), then
     # one exact row per relation with the columns of its equation.
     in_basis = sorted(basis.basis)
@@ -446,6 +428,25 @@ def diagnose_factor(
                             else np.sqrt(F.weights))
         for dim, (_, cols) in zip(loo["dimensions"], table.flagged, strict=True):
             dim["columns"] = [names[in_basis[j]] for j in cols]
+
+    # Condition numbers of raw, unit-length, and centered-and-scaled X. The side thread's
+    # spectra are awaited last: the basis columns' SVD and the rest overlap with them.
+    if spectra is None:
+        sv_raw, sv_c = F.singular_values_raw, cnd.singular_values(Zc)
+    else:
+        sv_raw, sv_c = spectra.result()
+    # Centring removes the constant's direction from the span: the centred non-constant
+    # columns have rank rank(X) − 1 when the constant is in the span (explicitly or not),
+    # rank(X) otherwise; below their number they are deficient (the one rank decision).
+    cen_rank = rank - (1 if F.constant_in_span else 0)
+    cen_deficient = cen_rank < len(nonconst)
+    cond = {
+        # Raw scale: no tolerance of its own; infinite exactly when X is rank deficient.
+        "raw": finite_or_none(cnd.condition_number(sv_raw, 0.0 if rank == p else np.inf)),
+        "equilibrated": finite_or_none(cnd.condition_number(sv_eq, tol_used)),
+        "centered": (finite_or_none(cnd.condition_number(sv_c, np.inf if cen_deficient
+                                                          else 0.0)) if sv_c.size else None),
+    }
 
     for c in [names[j] for j in consts]:
         if c != "(intercept)":
