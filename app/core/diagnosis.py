@@ -13,14 +13,21 @@ import numpy as np
 from threadpoolctl import threadpool_limits
 
 from rankscope.core import conditioning as cnd
+from rankscope.core.basis import Basis
 from rankscope.core.correlation import cluster_order, pearson_from_factor, spearman
 from rankscope.core.dependencies import data_residual, null_vectors, relations
 from rankscope.core.factor import Factorization, factorize
 from rankscope.core.fit import fit_least_squares
-from rankscope.core.inflation import gvif, vif_from_factor
+from rankscope.core.inflation import gvif, triangular_inverse, vif_from_factor
 from rankscope.core.influence import leave_one_out
 from rankscope.core.numbers import finite_or_none
-from rankscope.core.rank import EPS, decide, default_tolerance
+from rankscope.core.rank import (
+    EPS,
+    certainly_full_rank,
+    decide,
+    default_tolerance,
+    null_by_inverse_iteration,
+)
 from rankscope.core.ridge import DEFAULT_GRID, ridge_path
 
 TOLERANCE_RULE = "σ_max(Xe)·max(n, p)·eps (Golub & Van Loan §5.4.1; as numpy.linalg.matrix_rank)"
@@ -174,6 +181,72 @@ def _side_spectra(F: Factorization, Zc: np.ndarray) -> Future:
     return _SIDE[0].submit(lambda: (F.singular_values_raw, cnd.singular_values(Zc)))
 
 
+#: Columns from which the rank decision takes the singular values of Xe without vectors
+#: when the design may be rank deficient, and its null space by inverse iteration: the
+#: vectors of a full SVD cost about as much again as the values (measured: 5.7 s against
+#: 2.8 s at 2,000 columns on one busy core), and a deficient design needs its basis
+#: columns' SVD besides. Narrower designs take the full SVD as before (a few ms).
+VALUES_FIRST_COLUMNS = 200
+
+Svd = tuple[np.ndarray | None, np.ndarray, np.ndarray | None]
+
+
+def rank_spectrum(F: Factorization, tol: float | None
+                  ) -> tuple[Svd, np.ndarray | None, float]:
+    """The singular values of Xe for the rank decision, with the vectors only where they
+    are needed, and the tolerance.
+
+    Returns (svd, null, tol): svd is (U, d, Vt) of Xe when computed in full (a design that
+    is certainly of full rank, whose index table then reuses it), else (None, d, None)
+    with `null` the null-space basis found by inverse iteration (rank.decide uses it in
+    place of the vectors). Either way d and the rank come from an SVD; which SVD is only a
+    question of cost (rank.certainly_full_rank, rank.null_by_inverse_iteration).
+    """
+    p = F.p
+
+    def tolerance(d: np.ndarray) -> float:
+        return float(tol) if tol is not None else default_tolerance(
+            d[0] if d.size else 0.0, F.n, p)
+
+    def full() -> tuple[Svd, None, float]:
+        svd = F.svd_eq
+        return svd, None, tolerance(svd[1])
+
+    if p < VALUES_FIRST_COLUMNS:
+        return full()
+    R = F.R_x_triangular
+    # ‖R‖_F/√p ≤ σ_max ≤ ‖R‖_F bound the default tolerance; σ_min ≤ min |r_jj| (the
+    # eigenvalues of a triangular matrix are its diagonal): a pivot at or below the lower
+    # bound makes R deficient without the inverse.
+    size = float(np.linalg.norm(R)) * max(F.n, p) * EPS
+    upper, lower = (float(tol), float(tol)) if tol is not None else (size, size / np.sqrt(p))
+    if (float(np.min(np.abs(np.diagonal(R)))) > lower
+            and certainly_full_rank(triangular_inverse(R), upper)):
+        return full()
+    d = F.singular_values_eq
+    tol_used = tolerance(d)
+    rank = int(np.sum(d > tol_used)) if d.size else 0
+    if rank == p:  # of full rank after all: the index table needs the vectors
+        return full()
+    found = null_by_inverse_iteration(R, d, rank, tol_used)
+    if found is None:
+        return full()
+    null = np.zeros_like(found)
+    null[F.x_order] = found  # R's columns are X's in x_order
+    return (None, d, None), null, tol_used
+
+
+def basis_svd(basis: Basis, columns: list[int]) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """SVD of the unit-length basis columns (in the given order) from the basis factor's
+    R11: the same singular values and right vectors as Xe's basis columns, an SVD of
+    k × k instead of p × k."""
+    at = {j: i for i, j in enumerate(basis.basis)}
+    M = basis.R11[:, [at[j] for j in columns]]
+    if M.size == 0:
+        return np.zeros((0, 0)), np.zeros(0), np.zeros((0, 0))
+    return np.linalg.svd(M, full_matrices=False)
+
+
 # Everything in diagnose_factor works on (p, p) matrices: BLAS threads only add contention
 # there (measured: a 100×100 SVD 50× slower with 2 threads on a busy 2-core machine).
 @threadpool_limits.wrap(limits=1, user_api="blas")
@@ -217,11 +290,10 @@ def diagnose_factor(
     nonconst = [j for j in range(p) if j not in consts and j not in F.zero_columns]
     Zc = cnd.unit_columns(cen, nonconst)
     spectra = _side_spectra(F, Zc) if p >= SIDE_SPECTRA_COLUMNS else None
-    sv_eq = F.svd_eq[1]
-    tol_used = float(tol) if tol is not None else default_tolerance(
-        sv_eq[0] if sv_eq.size else 0.0, F.n, p)
-    decision = decide(R_eq, F.svd_eq, priority_order(names, keep), tol_used, consts,
-                      rhs=F.R_xy[:p, p])
+    svd, null, tol_used = rank_spectrum(F, tol)
+    sv_eq = svd[1]
+    decision = decide(R_eq, svd, priority_order(names, keep), tol_used, consts,
+                      rhs=F.R_xy[:p, p], null=null)
     basis = decision.basis
     rank = decision.rank
     for j in F.zero_columns:
@@ -239,29 +311,12 @@ def diagnose_factor(
         involved.add(r.column)
         involved.update(r.combination)
 
-    # Condition numbers of raw, unit-length, and centered-and-scaled X.
-    if spectra is None:
-        sv_raw, sv_c = F.singular_values_raw, cnd.singular_values(Zc)
-    else:
-        sv_raw, sv_c = spectra.result()
-    # Centring removes the constant's direction from the span: the centred non-constant
-    # columns have rank rank(X) − 1 when the constant is in the span (explicitly or not),
-    # rank(X) otherwise; below their number they are deficient (the one rank decision).
-    cen_rank = rank - (1 if F.constant_in_span else 0)
-    cen_deficient = cen_rank < len(nonconst)
-    cond = {
-        # Raw scale: no tolerance of its own; infinite exactly when X is rank deficient.
-        "raw": finite_or_none(cnd.condition_number(sv_raw, 0.0 if rank == p else np.inf)),
-        "equilibrated": finite_or_none(cnd.condition_number(sv_eq, tol_used)),
-        "centered": (finite_or_none(cnd.condition_number(sv_c, np.inf if cen_deficient
-                                                          else 0.0)) if sv_c.size else None),
-    }
-
     # Index table of the basis design (an exact dimension would swamp every share), then
     # one exact row per relation with the columns of its equation.
     in_basis = sorted(basis.basis)
-    table = cnd.index_table(R_eq[:, in_basis], 0.0, index_threshold, proportion_threshold,
-                            svd=F.svd_eq if len(in_basis) == p else None)
+    table = cnd.index_table(
+        R_eq[:, in_basis], 0.0, index_threshold, proportion_threshold,
+        svd=svd if len(in_basis) == p and svd[2] is not None else basis_svd(basis, in_basis))
     shares = np.zeros((len(in_basis), p))
     shares[:, in_basis] = table.proportions
     props = [dict(zip(names, row, strict=True)) for row in shares.tolist()]
@@ -373,6 +428,25 @@ def diagnose_factor(
                             else np.sqrt(F.weights))
         for dim, (_, cols) in zip(loo["dimensions"], table.flagged, strict=True):
             dim["columns"] = [names[in_basis[j]] for j in cols]
+
+    # Condition numbers of raw, unit-length, and centered-and-scaled X. The side thread's
+    # spectra are awaited last: the basis columns' SVD and the rest overlap with them.
+    if spectra is None:
+        sv_raw, sv_c = F.singular_values_raw, cnd.singular_values(Zc)
+    else:
+        sv_raw, sv_c = spectra.result()
+    # Centring removes the constant's direction from the span: the centred non-constant
+    # columns have rank rank(X) − 1 when the constant is in the span (explicitly or not),
+    # rank(X) otherwise; below their number they are deficient (the one rank decision).
+    cen_rank = rank - (1 if F.constant_in_span else 0)
+    cen_deficient = cen_rank < len(nonconst)
+    cond = {
+        # Raw scale: no tolerance of its own; infinite exactly when X is rank deficient.
+        "raw": finite_or_none(cnd.condition_number(sv_raw, 0.0 if rank == p else np.inf)),
+        "equilibrated": finite_or_none(cnd.condition_number(sv_eq, tol_used)),
+        "centered": (finite_or_none(cnd.condition_number(sv_c, np.inf if cen_deficient
+                                                          else 0.0)) if sv_c.size else None),
+    }
 
     for c in [names[j] for j in consts]:
         if c != "(intercept)":

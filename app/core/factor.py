@@ -40,12 +40,27 @@ def _blocks(X: np.ndarray, y: np.ndarray, sw: np.ndarray | None, shifts: np.ndar
         yield B
 
 
+#: Column lengths between these are taken from the plain sum of squares: no square of an
+#: entry can then have overflowed (entries below 1e150) and what underflowed (entries below
+#: 1e-154) is below the rounding of the sum. Outside, the column is scaled first.
+PLAIN_NORMS = (1e-140, 1e140)
+
+
 def column_norms(A: np.ndarray) -> np.ndarray:
-    """Euclidean length of each column, scaled by its largest entry first so that columns
-    near underflow (1e-200) or overflow (1e200) keep their length (as BLAS dnrm2 does)."""
-    big = np.max(np.abs(A), axis=0) if A.shape[0] else np.zeros(A.shape[1])
-    safe = np.where(big > 0, big, 1.0)
-    return np.linalg.norm(A / safe, axis=0) * big
+    """Euclidean length of each column, scaled by its largest entry first where the plain
+    sum of squares could under- or overflow (lengths near 1e-200 or 1e200 keep their
+    digits, as BLAS dnrm2 does); one pass over A for every other column."""
+    if A.shape[0] == 0:
+        return np.zeros(A.shape[1])
+    with np.errstate(over="ignore", under="ignore"):
+        out = np.linalg.norm(A, axis=0)
+    redo = ~((out >= PLAIN_NORMS[0]) & (out <= PLAIN_NORMS[1]))
+    if np.any(redo):
+        B = A[:, redo]
+        big = np.max(np.abs(B), axis=0)
+        safe = np.where(big > 0, big, 1.0)
+        out[redo] = np.linalg.norm(B / safe, axis=0) * big
+    return out
 
 
 def _svd(R: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
@@ -130,8 +145,7 @@ class Factorization:
         centred part exactly (see basis.basis_factor). y stays last: R[p, p] is what y
         keeps beyond every column of X.
         """
-        first = self.constant_columns
-        perm = first + [j for j in range(self.p) if j not in first] + [self.p]
+        perm = self.x_order + [self.p]
         # T_eq without its constant column is upper Hessenberg when the constant columns
         # lead X: r_factor then reduces one entry per column.
         R = r_factor(self.T_eq[:, 1:][:, perm])
@@ -151,10 +165,31 @@ class Factorization:
         return self.R_xy[: self.p, : self.p]
 
     @cached_property
+    def x_order(self) -> list[int]:
+        """The order in which R_xy reduced the X columns: constant columns first."""
+        first = self.constant_columns
+        return first + [j for j in range(self.p) if j not in first]
+
+    @cached_property
+    def R_x_triangular(self) -> np.ndarray:
+        """R_x with its columns in x_order: upper triangular (R_xy's own reduction order,
+        so exactly: no entry below the diagonal to clear)."""
+        return self.R_x[:, self.x_order]
+
+    @cached_property
     def svd_eq(self) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
         """(U, d, Vt) of R_x: the SVD of Xe, computed once for the rank, the condition
         indices and their proportions (Xe = Q·R_x shares d and V with R_x)."""
         return _svd(self.R_x)
+
+    @cached_property
+    def singular_values_eq(self) -> np.ndarray:
+        """(p,) singular values of Xe without vectors (those of svd_eq once it is made):
+        about half the work of the full SVD."""
+        if "svd_eq" in self.__dict__:
+            return self.svd_eq[1]
+        R = self.R_x_triangular
+        return np.linalg.svd(R, compute_uv=False) if R.size else np.zeros(0)
 
     @cached_property
     def singular_values_raw(self) -> np.ndarray:

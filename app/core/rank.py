@@ -4,9 +4,11 @@ basis and dependent columns that follow from it. Small (p, p) factors only; no n
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 
 import numpy as np
+from scipy.linalg import solve_triangular
 
 from rankscope.core.basis import Basis, basis_factor
 
@@ -42,6 +44,77 @@ def default_tolerance(sigma_max: float, n: int, p: int) -> float:
     numpy.linalg.matrix_rank and Press et al., Numerical Recipes, 3rd ed., §2.6.
     """
     return float(sigma_max) * max(n, p) * EPS
+
+
+#: How far the computed inverse's norm may be off before the full-rank test below could be
+#: wrong: the computed inverse of a triangular R has a normwise relative error of about
+#: p·κ(R)·eps (Higham, Accuracy and Stability of Numerical Algorithms, 2nd ed., §8.2, §14.2),
+#: at most a quarter when κ(R) < 1/(4·max(n, p)·eps) as the test asks. The test only chooses
+#: which SVD is computed, never the rank: a wrong answer costs time, not a result.
+FULL_RANK_MARGIN = 4.0
+
+
+def certainly_full_rank(R_inv: np.ndarray, bound: float) -> bool:
+    """True when every singular value of R exceeds `bound`, read off R⁻¹ (triangular_inverse):
+    σ_min(R) = 1/‖R⁻¹‖₂ ≥ 1/‖R⁻¹‖_F. bound: the largest rank tolerance the SVD could set
+    (‖R‖_F·max(n, p)·eps, as σ_max ≤ ‖R‖_F, or the caller's tolerance)."""
+    if R_inv.size == 0:
+        return True
+    size = float(np.linalg.norm(R_inv))
+    return bool(np.isfinite(size) and size > 0 and 1.0 / size > FULL_RANK_MARGIN * bound)
+
+
+#: Largest ratio σ_{r+1}/σ_r (the largest singular value cut over the smallest kept) for
+#: which the null space is found by inverse iteration; each sweep shrinks what the start
+#: keeps of the kept directions by (σ_{r+1}/σ_r)² at least (subspace iteration with R⁻¹R⁻ᵀ,
+#: Golub & Van Loan 4th ed. §8.2.4, §7.6.1), so at this ratio four sweeps reach eps.
+#: A narrower gap takes the full SVD's vectors.
+NULL_GAP = 1e-2
+NULL_SWEEPS = 5
+
+
+def null_by_inverse_iteration(R: np.ndarray, d: np.ndarray, rank: int, tol: float
+                              ) -> np.ndarray | None:
+    """(p, p − rank) orthonormal basis of the numerical null space of the upper triangular
+    R (nothing below its diagonal), from its singular values d (descending, without
+    vectors) by subspace inverse iteration; None when the gap is too narrow or the result
+    fails its check (then the caller takes the SVD's vectors).
+
+    Spans the same space as the right singular vectors of d[rank:] to the rounding the
+    SVD itself carries: R·N is checked to be at most 2·tol + p·eps·σ_max, so N leans on a
+    kept direction by at most that over σ_r (Wedin's bound, as null_row_floor). The basis
+    differs from the SVD's by a rotation, which dependent_columns does not see (it works
+    on the rows' lengths and angles). Zero pivots are raised to eps·‖R‖, a perturbation
+    below the rank tolerance, so every solve is defined.
+    """
+    p = R.shape[0]
+    k = p - rank
+    if k == 0 or rank == 0 or not np.all(np.isfinite(R)):
+        return None
+    ratio = float(d[rank] / d[rank - 1]) if d[rank - 1] > 0 else 1.0
+    if ratio > NULL_GAP:
+        return None
+    sweeps = 1 if ratio == 0.0 else min(
+        NULL_SWEEPS, 1 + math.ceil(math.log(EPS) / (2 * math.log(ratio))))
+    top = float(d[0])
+    floor = EPS * top
+    T = R.copy()
+    diag = np.diagonal(T).copy()
+    small = np.abs(diag) < floor
+    diag[small] = np.where(diag[small] < 0, -floor, floor)
+    np.fill_diagonal(T, diag)
+    # A fixed start: the same design always gets the same basis.
+    W, _ = np.linalg.qr(np.random.default_rng(0).normal(size=(p, k)))
+    with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
+        for _ in range(sweeps):
+            Y = solve_triangular(T, W, trans="T", check_finite=False)
+            Y /= np.where((n := np.linalg.norm(Y, axis=0)) > 0, n, 1.0)
+            Z = solve_triangular(T, Y, check_finite=False)
+            if not np.all(np.isfinite(Z)):
+                return None
+            W, _ = np.linalg.qr(Z)
+    left = float(np.linalg.norm(R @ W, 2))
+    return W if left <= 2 * tol + p * EPS * top else None
 
 
 @dataclass(frozen=True)
@@ -125,18 +198,23 @@ def decide(
     tol: float,
     constants: list[int],
     rhs: np.ndarray | None = None,
+    null: np.ndarray | None = None,
 ) -> RankDecision:
     """The rank and basis of the unit-length columns A (m, p) from their SVD.
 
-    svd: (U, d, Vt) of A. order: basis priority, a permutation of range(p). tol: absolute
-    threshold on d. constants: columns whose centred part is zero; they lead the QR of the
-    basis so that the remaining columns are reduced in centred form.
+    svd: (U, d, Vt) of A; U and Vt may be None when `null` is given: the (p, p − rank)
+    orthonormal null-space basis found without the vectors (null_by_inverse_iteration).
+    order: basis priority, a permutation of range(p). tol: absolute threshold on d.
+    constants: columns whose centred part is zero; they lead the QR of the basis so that
+    the remaining columns are reduced in centred form.
     """
     _, d, Vt = svd
     p = A.shape[1]
     rank = int(np.sum(d > tol)) if d.size else 0
-    null = Vt[rank:].T if p else np.zeros((0, 0))
-    zero = tuple(j for j in order if p and not np.any(A[:, j]))
+    if null is None:
+        null = Vt[rank:].T if p else np.zeros((0, 0))
+    empty = ~np.any(A, axis=0) if p else np.zeros(0, dtype=bool)
+    zero = tuple(j for j in order if empty[j])
     dependent = dependent_columns(null, order, floor=null_row_floor(d, rank, tol), first=zero)
     dep = set(dependent)
     basis = [j for j in order if j not in dep]

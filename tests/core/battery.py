@@ -8,11 +8,25 @@ import math
 from collections.abc import Callable
 
 import numpy as np
+import pytest
 
 from rankscope.core import Diagnosis, diagnose
+from rankscope.core import diagnosis as diagnosis_module
 
 INT = "(intercept)"
 EPS = float(np.finfo(np.float64).eps)
+
+
+@pytest.fixture(scope="module", params=["full SVD", "values first"])
+def rank_path(request: pytest.FixtureRequest):
+    """Runs a module twice: the narrow designs' rank decision (one full SVD) and the wide
+    designs' (singular values without vectors, null space by inverse iteration, index table
+    from the basis factor), which the battery's small designs would not reach otherwise."""
+    old = diagnosis_module.VALUES_FIRST_COLUMNS
+    if request.param == "values first":
+        diagnosis_module.VALUES_FIRST_COLUMNS = 0
+    yield request.param
+    diagnosis_module.VALUES_FIRST_COLUMNS = old
 
 
 def orders(names: list[str], *, intercept_too: bool, limit: int, seed: int) -> list[list[str]]:

@@ -28,11 +28,14 @@ from tests.core.battery import (
     numpy_rank,
     orders,
     over_orders,
+    rank_path,  # noqa: F401 - a fixture (pytestmark)
     rel_err,
     run,
     support,
     unit_length,
 )
+
+pytestmark = pytest.mark.usefixtures("rank_path")
 
 SEEDS = (0, 1, 2)
 

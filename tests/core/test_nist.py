@@ -9,7 +9,10 @@ import numpy as np
 import pytest
 
 from rankscope.core import diagnose
+from tests.core.battery import rank_path  # noqa: F401 - a fixture
 from tests.core.nist import design, lre, problems
+
+pytestmark = pytest.mark.usefixtures("rank_path")
 
 PROBS = problems()
 #: Required digits for the estimates (issue 2); 9 for Wampler3.

@@ -7,10 +7,14 @@ coefficients are known exactly.
 from __future__ import annotations
 
 import numpy as np
+import pytest
 from hypothesis import given
 from hypothesis import strategies as st
 
 from rankscope.core import diagnose
+from tests.core.battery import rank_path  # noqa: F401 - a fixture
+
+pytestmark = pytest.mark.usefixtures("rank_path")
 
 INT = "(intercept)"
 

@@ -15,6 +15,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
+import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
@@ -27,10 +28,13 @@ from tests.core.battery import (
     check_vif_none_iff_involved,
     involved,
     numpy_rank,
+    rank_path,  # noqa: F401 - a fixture (pytestmark)
     rel_err,
     run,
     support,
 )
+
+pytestmark = pytest.mark.usefixtures("rank_path")
 
 #: Relative tolerance on VIF values (see the module docstring).
 VIF_RTOL = 1e-8

@@ -8,6 +8,7 @@ numpy.linalg.inv for the triangular inverse. Data are random with planted struct
 from __future__ import annotations
 
 import numpy as np
+import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 from scipy.cluster.hierarchy import leaves_list, linkage, optimal_leaf_ordering
@@ -170,3 +171,120 @@ def test_all_zero_columns_are_never_in_the_basis() -> None:
         assert d.rank == 3 == np.linalg.matrix_rank(X / np.where(lengths > 0, lengths, 1.0))
         assert {"z1", "z2"} <= {r["column"] for r in d.dependencies}
         assert "z1" not in d.basis and "z2" not in d.basis
+
+
+def _deficient_factor(seed: int, p: int, near: float) -> tuple[np.ndarray, int]:
+    """Triangular factor of p unit-length columns: three exact relations (a sum, a multiple,
+    a column of zeros) and one near pair (difference `near`); returns it and its rank."""
+    rng = np.random.default_rng(seed)
+    X = rng.normal(size=(3 * p, p)) * rng.uniform(0.5, 2.0, p)
+    X[:, p - 1] = X[:, 0] + X[:, 1]
+    X[:, p - 2] = 2.5 * X[:, 2]
+    X[:, p - 3] = 0.0
+    X[:, p - 4] = X[:, 3] + near * rng.normal(size=3 * p)
+    lengths = np.linalg.norm(X, axis=0)
+    R = np.linalg.qr(X / np.where(lengths > 0, lengths, 1.0), mode="r")
+    return R, p - 3
+
+
+@pytest.mark.parametrize("near", [1e-3, 1e-6])
+def test_null_space_by_inverse_iteration_is_the_svds(near: float) -> None:
+    from rankscope.core.rank import EPS, default_tolerance, null_by_inverse_iteration
+
+    R, rank = _deficient_factor(7, 120, near)
+    # reference: numpy.linalg.svd (LAPACK gesdd): the right singular vectors past the rank
+    _, d, Vt = np.linalg.svd(R)
+    tol = default_tolerance(d[0], 360, 120)
+    assert int(np.sum(d > tol)) == rank
+    N = null_by_inverse_iteration(R, np.linalg.svd(R, compute_uv=False), rank, tol)
+    assert N is not None and N.shape == (120, 3)
+    assert np.allclose(N.T @ N, np.eye(3), atol=1e-12)
+    # the same space: equal orthogonal projectors, to the SVD's own rounding (Wedin:
+    # about eps·σ_max/σ_r, σ_r the smallest singular value kept)
+    V0 = Vt[rank:].T
+    assert np.max(np.abs(N @ N.T - V0 @ V0.T)) < 1e3 * EPS * d[0] / d[rank - 1]
+
+
+def test_inverse_iteration_declines_a_narrow_gap() -> None:
+    from rankscope.core.rank import null_by_inverse_iteration
+
+    d = np.array([1.0, 0.5, 1e-9, 1e-10])  # σ_3/σ_2 = 0.1 > NULL_GAP
+    assert null_by_inverse_iteration(np.diag(d), d, 3, 2e-10) is None
+
+
+def test_full_rank_certificate_agrees_with_the_svd() -> None:
+    from rankscope.core.inflation import triangular_inverse
+    from rankscope.core.rank import FULL_RANK_MARGIN, certainly_full_rank
+
+    rng = np.random.default_rng(3)
+    R = np.linalg.qr(rng.normal(size=(90, 30)), mode="r")
+    # reference: numpy.linalg.svd's smallest singular value; ‖R⁻¹‖_F ≤ √p·‖R⁻¹‖₂ is the
+    # slack the certificate allows itself
+    smallest = np.linalg.svd(R, compute_uv=False)[-1]
+    assert certainly_full_rank(triangular_inverse(R),
+                               0.99 * smallest / (FULL_RANK_MARGIN * np.sqrt(30)))
+    assert not certainly_full_rank(triangular_inverse(R), smallest)
+    R[5, 5] = 1e-14  # a pivot near zero: nearly singular
+    assert not certainly_full_rank(triangular_inverse(R), 1e-12)
+
+
+def test_wide_rank_path_matches_the_full_svds() -> None:
+    """A design past VALUES_FIRST_COLUMNS (values first, null space by inverse iteration,
+    index table from the basis factor) against the same design forced onto the full SVD
+    path, and its proportions against numpy.linalg.svd of the unit-length basis columns
+    (Belsley, Kuh & Welsch 1980, eqs. 3.10-3.12)."""
+    from rankscope.core import diagnosis as dm
+
+    p = dm.VALUES_FIRST_COLUMNS + 20
+    rng = np.random.default_rng(11)
+    X = rng.normal(size=(3 * p, p)) + rng.uniform(-5, 5, p)
+    X[:, 0] = 1.0
+    X[:, p - 1] = X[:, 4] + X[:, 5]
+    X[:, p - 2] = 3.0 * X[:, 6] - X[:, 7]
+    X[:, p - 3] = X[:, 8] + 1e-4 * rng.normal(size=3 * p)
+    names = ["(intercept)"] + [f"x{j:03d}" for j in range(1, p)]
+    y = X[:, 1:10] @ rng.normal(size=9) + rng.normal(size=3 * p)
+    wide = diagnose(X, names, y)
+    old = dm.VALUES_FIRST_COLUMNS
+    dm.VALUES_FIRST_COLUMNS = 10 * p
+    try:
+        ref = diagnose(X, names, y)
+    finally:
+        dm.VALUES_FIRST_COLUMNS = old
+    assert wide.rank == ref.rank == p - 2
+    assert wide.basis == ref.basis
+    assert [r["equation"] for r in wide.dependencies] == [r["equation"]
+                                                          for r in ref.dependencies]
+    for kind in ("raw", "equilibrated", "centered"):
+        assert np.allclose(wide.singular_values[kind], ref.singular_values[kind],
+                           rtol=1e-12, atol=1e-14 * ref.singular_values[kind][0])
+    got = np.array([[row[c] for c in names] for row in wide.variance_proportions])
+    want = np.array([[row[c] for c in names] for row in ref.variance_proportions])
+    assert np.allclose(got, want, atol=1e-9)
+    assert np.allclose(wide.condition_indices[: p - 2], ref.condition_indices[: p - 2],
+                       rtol=1e-9)
+    # reference: numpy.linalg.svd of the unit-length basis columns
+    B = [names.index(c) for c in names if c in set(wide.basis)]
+    Z = X[:, B] / np.linalg.norm(X[:, B], axis=0)
+    _, d, Vt = np.linalg.svd(Z, full_matrices=False)
+    phi = Vt.T**2 / d**2
+    props = (phi / phi.sum(axis=1, keepdims=True)).T
+    assert np.allclose(got[: p - 2][:, B], props, atol=1e-9)
+    assert wide.vif == ref.vif or all(
+        (a is None and b is None) or abs(a - b) <= 1e-9 * b
+        for a, b in zip(wide.vif.values(), ref.vif.values(), strict=True))
+
+
+def test_column_norms_near_underflow_and_overflow() -> None:
+    import math
+
+    from rankscope.core.factor import column_norms
+
+    rng = np.random.default_rng(4)
+    A = rng.normal(size=(40, 7))
+    for j, scale in enumerate([1.0, 1e-200, 1e200, 0.0, 1e-150, 1e145, 1e-300]):
+        A[:, j] *= scale
+    # reference: math.hypot, which scales its arguments itself (no under- or overflow)
+    ref = np.array([math.hypot(*A[:, j]) for j in range(7)])
+    got = column_norms(A)
+    assert np.allclose(got, ref, rtol=1e-14, atol=0)
