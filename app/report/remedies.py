@@ -28,6 +28,9 @@ MOST = 40
 PREVIEW_COLUMNS = 250
 #: However wide the design, the first candidates (an equation's own columns) are previewed.
 FEWEST = 3
+#: Significant digits the ranking compares: the paths agree to about 1e-12 relative
+#: (tests/cli/test_check_stream.py), far inside 8 digits.
+SIGNIFICANT = 8
 #: A column is "far from zero with little spread" when |mean| exceeds this many standard
 #: deviations: it is then nearly collinear with the constant (common practice; the
 #: non-essential ill-conditioning of Marquardt, JASA 75, 1980, and Belsley, The American
@@ -211,8 +214,12 @@ def previewed(d: Diagnosis, F: Factorization, cands: list[Candidate], *,
     def key(r: dict) -> tuple:
         top = r["largest_finite_vif"]
         cond = r["condition_number"]["equilibrated"]
-        return (r["columns"] - r["rank"], len(r["infinite_vif"]),
-                0.0 if top is None else top["vif"], np.inf if cond is None else cond)
+        # VIFs equal in exact arithmetic (the same column's, after different remedies) differ
+        # in their last digits between the in-memory and streamed factors: compared to
+        # SIGNIFICANT digits, such a tie falls to the condition number on every path.
+        vif = 0.0 if top is None else float(f"{top['vif']:.{SIGNIFICANT}g}")
+        return (r["columns"] - r["rank"], len(r["infinite_vif"]), vif,
+                np.inf if cond is None else float(f"{cond:.{SIGNIFICANT}g}"))
 
     rows.sort(key=key)
     return rows
