@@ -36,12 +36,16 @@ extras (--with, repeatable or comma-separated; computed only when asked, null in
 otherwise):
   spearman     Spearman's rank correlations of the columns (ranks every row)
   order        the columns in a clustered display order (columns that move together)
+  proportions  on a design of 200 columns or more: the proportions of every dimension
+               (by default those of condition index 10 or more only; null for the others)
+  spectra      on a design of 200 columns or more: the raw and centred singular values
+               (by default only where a finite condition number needs them)
 exit codes: 0 every rule holds, 1 a rule is crossed, 2 bad input (one line on stderr).
 """
 
 #: What --with may ask for (rankscope.core.correlation.EXTRAS, spelled out here so that the
 #: command's help and checks load without the core).
-EXTRAS = ("spearman", "order")
+EXTRAS = ("spearman", "order", "proportions", "spectra")
 
 
 class Parser(argparse.ArgumentParser):
@@ -253,7 +257,9 @@ def run_check(args: argparse.Namespace) -> int:
     found = diagnose_factor(F, response=design.response, groups=design.groups, keep=keep,
                             tol=args.tol, influence=args.influence,
                             rank_correlation="spearman" in args.extras,
-                            order="order" in args.extras)
+                            order="order" in args.extras,
+                            all_proportions="proportions" in args.extras,
+                            spectra="spectra" in args.extras)
     diagnosis = fields_of(found)
     remedies_of(found, F, design, steps.steps, keep, args.tol).into(diagnosis)
     return _write_check(args, rules, diagnosis, design, table.source, table.notes,
@@ -311,7 +317,9 @@ def stream_check(args: argparse.Namespace, *, out: TextIO | None = None,
     keep = list(args.keep) or None
     found = diagnose_factor(F, response=info.response, groups=info.groups, keep=keep,
                             tol=args.tol, rank_correlation=False,
-                            order="order" in args.extras)
+                            order="order" in args.extras,
+                            all_proportions="proportions" in args.extras,
+                            spectra="spectra" in args.extras)
     diagnosis = fields_of(found)
     remedies_of(found, F, info.design(), steps.steps, keep, args.tol).into(diagnosis)
     stream = {"passes": info.passes, "blocks": info.blocks, "bytes": info.bytes_total,
@@ -441,7 +449,8 @@ def build_parser() -> Parser:
                             "columns (default: σ_max·max(n, p)·eps)")
     check.add_argument("--json", action="store_true", help="print the diagnosis as JSON")
     check.add_argument("--with", metavar="EXTRA", dest="with_", action="append", default=[],
-                       help="also compute an extra: spearman, order (repeatable or "
+                       help="also compute an extra: spearman, order, proportions, spectra "
+                            "(repeatable or "
                             "comma-separated; see below)")
     check.add_argument("--influence", action="store_true",
                        help="also find the rows behind the condition number and each flagged "

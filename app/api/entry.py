@@ -14,7 +14,7 @@ import numpy as np
 
 from rankscope.api.inputs import as_table, is_table_like
 from rankscope.api.models import fitted_design, model_of
-from rankscope.api.result import Inspection
+from rankscope.api.result import EXTRAS, Inspection
 from rankscope.design.design import Design
 from rankscope.design.names import quoted, suggestion
 from rankscope.design.recipe import Recipe
@@ -99,7 +99,7 @@ def inspect(
     keep: Sequence[str] | None = None,
     tol: float | None = None,
     names: Sequence[str] | None = None,
-    extras: Sequence[str] = ("spearman", "order"),
+    extras: Sequence[str] = EXTRAS,
 ) -> Inspection:
     """Diagnose the design matrix of a linear model.
 
@@ -128,11 +128,13 @@ def inspect(
         (default σ_max·max(n, p)·eps).
     names : sequence of str, optional
         Column names of a NumPy array.
-    extras : sequence of str, default ("spearman", "order")
+    extras : sequence of str, default ("spearman", "order", "proportions", "spectra")
         The extras to compute, as `check --with` names them: "spearman" (Spearman's rank
-        correlations, ranking every row) and "order" (the clustered display order). Both by
-        default, since the notebook report shows them; () skips them (faster on wide or
-        long tables), and each one left out is None in the correlations.
+        correlations, ranking every row), "order" (the clustered display order),
+        "proportions" and "spectra" (on a design of 200 columns or more: every dimension's
+        variance proportions, the raw and centred singular values). All by default, so
+        every frame is complete; () skips them (faster on wide or long tables), and each
+        one left out is None where docs/json.md says.
 
     Returns
     -------
@@ -151,9 +153,10 @@ def inspect(
     if isinstance(extras, str):
         extras = [extras]
     for extra in extras:
-        if extra not in ("spearman", "order"):
+        if extra not in EXTRAS:
             raise InputError(f"there is no extra named {extra!r}", "extras",
-                             'Ask for "spearman" or "order", e.g. extras=("spearman",)')
+                             "Ask for " + ", ".join(f'"{e}"' for e in EXTRAS)
+                             + ', e.g. extras=("spearman",)')
     # Tables are never taken for models, whatever their columns are called.
     model = None if is_table_like(data) else model_of(data)
     if model is not None:
@@ -185,7 +188,9 @@ def inspect(
     F = factorize(design.X, design.columns, design.y, w)
     diagnosis = diagnose_factor(F, response=design.response, groups=design.groups,
                                 keep=keep or None, tol=tol,
-                                rank_correlation="spearman" in extras, order="order" in extras)
+                                rank_correlation="spearman" in extras, order="order" in extras,
+                                all_proportions="proportions" in extras,
+                                spectra="spectra" in extras)
     steps = list(used_recipe.steps) if used_recipe is not None else []
     found = remedies_of(diagnosis, F, design, steps, keep or None, tol)
     return Inspection(diagnosis, design, source=source, table_notes=table_notes,

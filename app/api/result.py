@@ -13,6 +13,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
+from rankscope.core.correlation import EXTRAS
 from rankscope.core.diagnosis import Diagnosis
 from rankscope.design.design import Design
 from rankscope.design.recipe import Recipe
@@ -52,9 +53,9 @@ class Inspection:
                  recipe: Recipe | None = None, weights: np.ndarray | None = None,
                  remedies: list[dict] | None = None,
                  remedies_not_previewed: list[dict] | None = None,
-                 extras: Sequence[str] = ("spearman", "order")) -> None:
+                 extras: Sequence[str] = EXTRAS) -> None:
         self.diagnosis = diagnosis
-        self.extras = [e for e in ("spearman", "order") if e in extras]
+        self.extras = [e for e in EXTRAS if e in extras]
         self.remedies = list(remedies or [])
         self.remedies_not_previewed = list(remedies_not_previewed or [])
         self.design = design
@@ -156,7 +157,9 @@ class Inspection:
             ``exact``, then one column per design column holding its proportion.
         """
         d = self.diagnosis
-        frame = pd.DataFrame(d.variance_proportions, columns=d.columns)
+        # A wide design's rows of low index have no proportions unless asked for
+        # (all_proportions=True): NaN there.
+        frame = pd.DataFrame([row or {} for row in d.variance_proportions], columns=d.columns)
         frame.insert(0, "exact", d.index_exact)
         frame.insert(0, "condition_index", [_inf(x) for x in d.condition_indices])
         frame.index.name = "dimension"

@@ -11,8 +11,10 @@ from functools import lru_cache
 import numpy as np
 
 #: The extras a caller asks for by name (`check --with`, `inspect(extras=...)`): Spearman's
-#: rank correlations (ranks every row) and the clustered display order of the columns.
-EXTRAS = ("spearman", "order")
+#: rank correlations (ranks every row), the clustered display order of the columns, and
+#: for a wide design every dimension's proportions and the raw and centred spectra
+#: (rankscope.core.diagnosis.diagnose_factor: all_proportions, spectra).
+EXTRAS = ("spearman", "order", "proportions", "spectra")
 
 
 def pearson_from_factor(Z: np.ndarray) -> np.ndarray:

@@ -13,7 +13,7 @@ import numpy as np
 from threadpoolctl import threadpool_limits
 
 from rankscope.core import conditioning as cnd
-from rankscope.core.basis import Basis
+from rankscope.core.basis import Basis, basis_factor
 from rankscope.core.correlation import cluster_order, pearson_from_factor, spearman
 from rankscope.core.dependencies import data_residual, null_vectors, relations
 from rankscope.core.factor import Factorization, factorize
@@ -23,7 +23,6 @@ from rankscope.core.influence import leave_one_out
 from rankscope.core.numbers import finite_or_none
 from rankscope.core.rank import (
     EPS,
-    certainly_full_rank,
     decide,
     default_tolerance,
     null_by_inverse_iteration,
@@ -49,12 +48,12 @@ class Diagnosis:
     rank_note: str | None
     basis: list[str]
     condition_number: dict[str, float | None]
-    singular_values: dict[str, list[float]]
+    singular_values: dict[str, list[float] | None]
     centered_columns: list[str]
     dependencies: list[dict]
     null_space: list[dict[str, float]]
     condition_indices: list[float | None]
-    variance_proportions: list[dict[str, float]]
+    variance_proportions: list[dict[str, float] | None]
     index_exact: list[bool]
     exact_dimensions: list[dict]
     near_dependencies: list[dict]
@@ -110,6 +109,8 @@ def diagnose(
     rank_correlation: bool = True,
     influence: bool = False,
     order: bool = True,
+    all_proportions: bool = False,
+    spectra: bool = False,
 ) -> Diagnosis:
     """Factor X (n, p) [and y (n,)] once and derive every diagnostic. See diagnose_factor."""
     F = factorize(X, columns, y, weights)
@@ -117,7 +118,7 @@ def diagnose(
         F, response=response, groups=groups, keep=keep, tol=tol, ridge_penalty=ridge_penalty,
         ridge_grid=ridge_grid, index_threshold=index_threshold,
         proportion_threshold=proportion_threshold, rank_correlation=rank_correlation,
-        influence=influence, order=order,
+        influence=influence, order=order, all_proportions=all_proportions, spectra=spectra,
     )
 
 
@@ -171,14 +172,42 @@ _SIDE: list[ThreadPoolExecutor] = []
 _SIDE_GUARD = threading.Lock()
 
 
-def _side_spectra(F: Factorization, Zc: np.ndarray) -> Future:
-    """The raw and centred singular values, computed on a thread of their own (one pool of
-    two for the process: as many as the analyses that may run at once by default)."""
-    F.R_xy_raw  # noqa: B018 - the shared QR is made here, before two threads could ask for it
+def _side_pool() -> ThreadPoolExecutor:
+    """One pool of two for the process: as many as the analyses that may run at once by
+    default."""
     with _SIDE_GUARD:
         if not _SIDE:
             _SIDE.append(ThreadPoolExecutor(2, thread_name_prefix="rankscope-spectra"))
-    return _SIDE[0].submit(lambda: (F.singular_values_raw, cnd.singular_values(Zc)))
+    return _SIDE[0]
+
+
+def _side_spectra(F: Factorization, Zc: np.ndarray) -> Future:
+    """The raw and centred singular values, computed on a thread of their own."""
+    F.R_xy_raw  # noqa: B018 - the shared QR is made here, before two threads could ask for it
+    return _side_pool().submit(lambda: (F.singular_values_raw, cnd.singular_values(Zc)))
+
+
+Guess = tuple[tuple[list[int], list[int]], Future]
+
+
+def _guessed_basis(F: Factorization, hint: list[str], order: list[int]) -> Guess | None:
+    """The singular values of the basis factor that rank.decide would make if the basis
+    were the hinted columns (a caller's previous basis: after dropping or adding one column
+    it is usually the new one), computed on the side thread while the rank decision's own
+    SVD runs: the same call on the same arguments, so the same numbers when the guess is
+    right. Returns ((basis in QR order, dependent), future of the values), or None."""
+    names = F.columns
+    inside = set(hint)
+    basis = [j for j in order if names[j] in inside]
+    if not basis or len(basis) == len(order):
+        return None
+    consts = F.constant_columns
+    first = [j for j in basis if j in consts]
+    qr_order = first + [j for j in basis if j not in first]
+    dependent = [j for j in order if names[j] not in inside]
+    A, rhs = F.R_x, F.R_xy[:F.p, F.p]
+    return (qr_order, dependent), _side_pool().submit(
+        lambda: cnd.singular_values(basis_factor(A, qr_order, dependent, rhs).R11))
 
 
 #: Columns from which the rank decision takes the singular values of Xe without vectors
@@ -191,16 +220,34 @@ VALUES_FIRST_COLUMNS = 200
 Svd = tuple[np.ndarray | None, np.ndarray, np.ndarray | None]
 
 
+def _tolerance_bounds(F: Factorization, tol: float | None) -> tuple[float, float]:
+    """(upper, lower) bounds of the rank tolerance before any SVD: ‖R‖_F/√p ≤ σ_max ≤
+    ‖R‖_F bound the default one; a caller's tolerance is both."""
+    if tol is not None:
+        return float(tol), float(tol)
+    size = float(np.linalg.norm(F.R_x_triangular)) * max(F.n, F.p) * EPS
+    return size, size / np.sqrt(F.p)
+
+
+def maybe_full_rank(F: Factorization, tol: float | None) -> bool:
+    """False when a pivot of the triangular factor is at or below the lowest tolerance the
+    SVD could set: σ_min ≤ min |r_jj| (the eigenvalues of a triangular matrix are its
+    diagonal), so X is then certainly rank deficient. True says only "perhaps"."""
+    if F.p == 0:
+        return True
+    return float(np.min(np.abs(np.diagonal(F.R_x_triangular)))) > _tolerance_bounds(F, tol)[1]
+
+
 def rank_spectrum(F: Factorization, tol: float | None
                   ) -> tuple[Svd, np.ndarray | None, float]:
     """The singular values of Xe for the rank decision, with the vectors only where they
     are needed, and the tolerance.
 
-    Returns (svd, null, tol): svd is (U, d, Vt) of Xe when computed in full (a design that
-    is certainly of full rank, whose index table then reuses it), else (None, d, None)
-    with `null` the null-space basis found by inverse iteration (rank.decide uses it in
-    place of the vectors). Either way d and the rank come from an SVD; which SVD is only a
-    question of cost (rank.certainly_full_rank, rank.null_by_inverse_iteration).
+    Returns (svd, null, tol): svd is (U, d, Vt) of Xe when computed in full (a narrow
+    design, whose index table then reuses it), else (None, d, None) with `null` the
+    null-space basis: empty for a design of full rank, else found by inverse iteration
+    (rank.decide uses it in place of the vectors). Either way d and the rank come from an
+    SVD; which SVD is only a question of cost (rank.null_by_inverse_iteration).
     """
     p = F.p
 
@@ -214,26 +261,53 @@ def rank_spectrum(F: Factorization, tol: float | None
 
     if p < VALUES_FIRST_COLUMNS:
         return full()
-    R = F.R_x_triangular
-    # ‖R‖_F/√p ≤ σ_max ≤ ‖R‖_F bound the default tolerance; σ_min ≤ min |r_jj| (the
-    # eigenvalues of a triangular matrix are its diagonal): a pivot at or below the lower
-    # bound makes R deficient without the inverse.
-    size = float(np.linalg.norm(R)) * max(F.n, p) * EPS
-    upper, lower = (float(tol), float(tol)) if tol is not None else (size, size / np.sqrt(p))
-    if (float(np.min(np.abs(np.diagonal(R)))) > lower
-            and certainly_full_rank(triangular_inverse(R), upper)):
-        return full()
     d = F.singular_values_eq
     tol_used = tolerance(d)
     rank = int(np.sum(d > tol_used)) if d.size else 0
-    if rank == p:  # of full rank after all: the index table needs the vectors
-        return full()
-    found = null_by_inverse_iteration(R, d, rank, tol_used)
+    if rank == p:  # the index table takes the vectors it shows from the basis factor
+        return (None, d, None), np.zeros((p, 0)), tol_used
+    found = null_by_inverse_iteration(F.R_x_triangular, d, rank, tol_used)
     if found is None:
         return full()
     null = np.zeros_like(found)
     null[F.x_order] = found  # R's columns are X's in x_order
     return (None, d, None), null, tol_used
+
+
+def basis_index_table(basis: Basis, A: np.ndarray, svd: Svd, every: bool,
+                      index_threshold: float, proportion_threshold: float,
+                      guess: Guess | None = None) -> cnd.IndexTable:
+    """The index table of the basis columns of A (the unit-length factor), columns in
+    ascending order. A wide basis (cnd.WIDE_DIMENSIONS columns or more) gets the
+    proportions of its dimensions of index cnd.PROPORTION_INDEX or more only (every:
+    all of them), from the singular values of its R11 and the vectors of those dimensions;
+    the others take the full SVD, reused from the rank decision when the basis is every
+    column. guess: _guessed_basis' future, whose values serve when its basis is this one."""
+    in_basis = sorted(basis.basis)
+    if len(in_basis) == A.shape[1] and svd[2] is not None:
+        return cnd.index_table(A[:, in_basis], 0.0, index_threshold, proportion_threshold,
+                               svd=svd)
+    k = len(in_basis)
+    if not every and k >= cnd.WIDE_DIMENSIONS:
+        R11 = basis.R11
+        if k == A.shape[1]:
+            d = svd[1]
+        elif guess is not None and guess[0] == (basis.basis, basis.dependent):
+            d = guess[1].result()
+        else:
+            d = cnd.singular_values(R11)
+        m = cnd.shown_dimensions(d, min(cnd.PROPORTION_INDEX, index_threshold))
+        t = cnd.subset_index_table(R11, d, triangular_inverse(R11), m, index_threshold,
+                                   proportion_threshold) if m else None
+        if t is not None:  # R11's columns are in QR order: put them in ascending order
+            at = {j: i for i, j in enumerate(basis.basis)}
+            perm = [at[j] for j in in_basis]
+            place = {i: q for q, i in enumerate(perm)}
+            return cnd.IndexTable(t.indices, t.proportions[:, perm],
+                                  [(r, sorted(place[i] for i in cols)) for r, cols in t.flagged],
+                                  t.exact, t.first)
+    return cnd.index_table(A[:, in_basis], 0.0, index_threshold, proportion_threshold,
+                           svd=basis_svd(basis, in_basis))
 
 
 def basis_svd(basis: Basis, columns: list[int]) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
@@ -265,6 +339,9 @@ def diagnose_factor(
     correlations: bool = True,
     influence: bool = False,
     order: bool = True,
+    all_proportions: bool = False,
+    spectra: bool = False,
+    basis_hint: list[str] | None = None,
 ) -> Diagnosis:
     """Every diagnostic from one Factorization.
 
@@ -273,6 +350,13 @@ def diagnose_factor(
     correlations: False leaves the correlation matrices empty (a preview needs none).
     rank_correlation, order: the extras (correlation.EXTRAS), each null when not asked:
     Spearman's matrix (needs the rows) and the clustered display order.
+    all_proportions, spectra: the extras of a wide design (cnd.WIDE_DIMENSIONS columns or
+    more), which gets by default the proportions of its dimensions of index
+    cnd.PROPORTION_INDEX or more only (the other rows None) and the raw and centred
+    singular values only where a condition number needs them (else None). Narrower
+    designs always get both in full. basis_hint: the basis a previous diagnosis of a
+    nearly equal design found; a wide deficient design then computes its basis' singular
+    values beside its own (the results are the same with or without it).
 
     tol: absolute rank tolerance on the singular values of the unit-length X (Xe);
     default σ_max·max(n, p)·eps. keep: columns to keep in the basis when columns are
@@ -289,10 +373,17 @@ def diagnose_factor(
     consts = F.constant_columns
     nonconst = [j for j in range(p) if j not in consts and j not in F.zero_columns]
     Zc = cnd.unit_columns(cen, nonconst)
-    spectra = _side_spectra(F, Zc) if p >= SIDE_SPECTRA_COLUMNS else None
+    # A wide design that is certainly deficient has infinite raw and centred condition
+    # numbers (as a rule, see below): their spectra are then left to whoever asks.
+    early = spectra or p < cnd.WIDE_DIMENSIONS or maybe_full_rank(F, tol)
+    side = _side_spectra(F, Zc) if early and p >= SIDE_SPECTRA_COLUMNS else None
+    order_of_basis = priority_order(names, keep)
+    guess = (_guessed_basis(F, basis_hint, order_of_basis)
+             if basis_hint and not early and not all_proportions
+             and p >= max(VALUES_FIRST_COLUMNS, cnd.WIDE_DIMENSIONS) else None)
     svd, null, tol_used = rank_spectrum(F, tol)
     sv_eq = svd[1]
-    decision = decide(R_eq, svd, priority_order(names, keep), tol_used, consts,
+    decision = decide(R_eq, svd, order_of_basis, tol_used, consts,
                       rhs=F.R_xy[:p, p], null=null)
     basis = decision.basis
     rank = decision.rank
@@ -314,19 +405,20 @@ def diagnose_factor(
     # Index table of the basis design (an exact dimension would swamp every share), then
     # one exact row per relation with the columns of its equation.
     in_basis = sorted(basis.basis)
-    table = cnd.index_table(
-        R_eq[:, in_basis], 0.0, index_threshold, proportion_threshold,
-        svd=svd if len(in_basis) == p and svd[2] is not None else basis_svd(basis, in_basis))
-    shares = np.zeros((len(in_basis), p))
+    table = basis_index_table(basis, R_eq, svd, all_proportions, index_threshold,
+                              proportion_threshold, guess)
+    shares = np.zeros((table.proportions.shape[0], p))
     shares[:, in_basis] = table.proportions
-    props = [dict(zip(names, row, strict=True)) for row in shares.tolist()]
+    props: list[dict[str, float] | None] = [None] * table.first
+    props += [dict(zip(names, row, strict=True)) for row in shares.tolist()]
     indices: list[float | None] = [finite_or_none(x) for x in table.indices]
     exact_rows = [False] * len(in_basis)
     near = [
         {
             "index": finite_or_none(table.indices[k]),
             "columns": [names[in_basis[j]] for j in cols],
-            "proportions": {names[in_basis[j]]: float(table.proportions[k, j]) for j in cols},
+            "proportions": {names[in_basis[j]]: float(table.proportions[k - table.first, j])
+                            for j in cols},
             "exact": False,
         }
         for k, cols in table.flagged
@@ -429,23 +521,29 @@ def diagnose_factor(
         for dim, (_, cols) in zip(loo["dimensions"], table.flagged, strict=True):
             dim["columns"] = [names[in_basis[j]] for j in cols]
 
-    # Condition numbers of raw, unit-length, and centered-and-scaled X. The side thread's
-    # spectra are awaited last: the basis columns' SVD and the rest overlap with them.
-    if spectra is None:
-        sv_raw, sv_c = F.singular_values_raw, cnd.singular_values(Zc)
-    else:
-        sv_raw, sv_c = spectra.result()
     # Centring removes the constant's direction from the span: the centred non-constant
     # columns have rank rank(X) − 1 when the constant is in the span (explicitly or not),
     # rank(X) otherwise; below their number they are deficient (the one rank decision).
     cen_rank = rank - (1 if F.constant_in_span else 0)
     cen_deficient = cen_rank < len(nonconst)
+    # Condition numbers of raw, unit-length, and centered-and-scaled X. The side thread's
+    # spectra are awaited last: the basis columns' SVD and the rest overlap with them.
+    sv_raw: np.ndarray | None
+    sv_c: np.ndarray | None
+    if side is not None:
+        sv_raw, sv_c = side.result()
+    elif early:
+        sv_raw, sv_c = F.singular_values_raw, cnd.singular_values(Zc)
+    else:  # rank < p: only a centred design of full rank needs its spectrum
+        sv_raw, sv_c = None, (None if cen_deficient else cnd.singular_values(Zc))
     cond = {
         # Raw scale: no tolerance of its own; infinite exactly when X is rank deficient.
-        "raw": finite_or_none(cnd.condition_number(sv_raw, 0.0 if rank == p else np.inf)),
+        "raw": (finite_or_none(cnd.condition_number(sv_raw, 0.0 if rank == p else np.inf))
+                if sv_raw is not None else None),
         "equilibrated": finite_or_none(cnd.condition_number(sv_eq, tol_used)),
         "centered": (finite_or_none(cnd.condition_number(sv_c, np.inf if cen_deficient
-                                                          else 0.0)) if sv_c.size else None),
+                                                          else 0.0))
+                     if sv_c is not None and sv_c.size else None),
     }
 
     for c in [names[j] for j in consts]:
@@ -466,9 +564,9 @@ def diagnose_factor(
         basis=[names[j] for j in priority_order(names, keep) if j in set(basis.basis)],
         condition_number=cond,
         singular_values={
-            "raw": sv_raw.tolist(),
+            "raw": None if sv_raw is None else sv_raw.tolist(),
             "equilibrated": sv_eq.tolist(),
-            "centered": sv_c.tolist(),
+            "centered": None if sv_c is None else sv_c.tolist(),
         },
         centered_columns=[names[j] for j in nonconst],
         dependencies=rel_dicts,

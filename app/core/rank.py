@@ -73,6 +73,22 @@ NULL_GAP = 1e-2
 NULL_SWEEPS = 5
 
 
+def inverse_sweeps(T: np.ndarray, k: int, sweeps: int) -> np.ndarray | None:
+    """(p, k) orthonormal W after `sweeps` of subspace iteration with (TᵀT)⁻¹ = T⁻¹T⁻ᵀ, two
+    triangular solves a sweep (Golub & Van Loan 4th ed. §8.2.4), from a fixed random start
+    (the same design always gets the same result); None when a solve overflows."""
+    W, _ = np.linalg.qr(np.random.default_rng(0).normal(size=(T.shape[0], k)))
+    with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
+        for _ in range(sweeps):
+            Y = solve_triangular(T, W, trans="T", check_finite=False)
+            Y /= np.where((n := np.linalg.norm(Y, axis=0)) > 0, n, 1.0)
+            Z = solve_triangular(T, Y, check_finite=False)
+            if not np.all(np.isfinite(Z)):
+                return None
+            W, _ = np.linalg.qr(Z)
+    return W
+
+
 def null_by_inverse_iteration(R: np.ndarray, d: np.ndarray, rank: int, tol: float
                               ) -> np.ndarray | None:
     """(p, p − rank) orthonormal basis of the numerical null space of the upper triangular
@@ -103,16 +119,9 @@ def null_by_inverse_iteration(R: np.ndarray, d: np.ndarray, rank: int, tol: floa
     small = np.abs(diag) < floor
     diag[small] = np.where(diag[small] < 0, -floor, floor)
     np.fill_diagonal(T, diag)
-    # A fixed start: the same design always gets the same basis.
-    W, _ = np.linalg.qr(np.random.default_rng(0).normal(size=(p, k)))
-    with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
-        for _ in range(sweeps):
-            Y = solve_triangular(T, W, trans="T", check_finite=False)
-            Y /= np.where((n := np.linalg.norm(Y, axis=0)) > 0, n, 1.0)
-            Z = solve_triangular(T, Y, check_finite=False)
-            if not np.all(np.isfinite(Z)):
-                return None
-            W, _ = np.linalg.qr(Z)
+    W = inverse_sweeps(T, k, sweeps)
+    if W is None:
+        return None
     left = float(np.linalg.norm(R @ W, 2))
     return W if left <= 2 * tol + p * EPS * top else None
 

@@ -118,7 +118,7 @@ def index_table(d: dict) -> str:
     trimmed = [] if len(shown) == len(order) else [para(
         f"{len(shown)} of the {len(order)} dimensions shown (past {WIDE_COLUMNS} columns): "
         f"the {WIDE_DIMENSIONS} most ill-conditioned and the flagged ones. The app's table and "
-        "`rankscope check --json` have them all.")]
+        "`rankscope check --json --with proportions` have them all.")]
     return section(
         "indices", "Condition indices and variance shares",
         para("One column per dimension of the unit-length design, the worst conditioned "

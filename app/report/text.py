@@ -140,6 +140,8 @@ def flagged_dimensions(d: dict) -> set[int]:
     for f in d["near_dependencies"]:
         for k, (ix, props) in enumerate(zip(d["condition_indices"], d["variance_proportions"],
                                             strict=True)):
+            if props is None:  # a wide design's dimension of low index: never flagged
+                continue
             if ix == f["index"] and all(props[c] == v for c, v in f["proportions"].items()):
                 out.add(k)
     return out
@@ -152,15 +154,18 @@ WIDE_COLUMNS = 50
 def dimensions_shown(d: dict, most: int) -> tuple[list[int], list[int], dict[int, int]]:
     """The index table's dimensions, most ill-conditioned first; those a report shows (all
     of them up to WIDE_COLUMNS design columns, else the `most` most ill-conditioned and the
-    flagged ones: the full table is p² cells, a million at 1,000 columns, none read); and
-    each dimension's place in the order (1 = the most ill-conditioned)."""
+    flagged ones: the full table is p² cells, a million at 1,000 columns, none read; never
+    one whose proportions were not computed, see docs/json.md); and each dimension's place
+    in the order (1 = the most ill-conditioned)."""
     idx = d["condition_indices"]
+    props = d["variance_proportions"]
     order = sorted(range(len(idx)), key=lambda k: -(idx[k] if idx[k] is not None else math.inf))
     rank_of = {k: i + 1 for i, k in enumerate(order)}
-    if len(d["columns"]) <= WIDE_COLUMNS:
+    if len(d["columns"]) <= WIDE_COLUMNS and all(row is not None for row in props):
         return order, order, rank_of
     flagged = flagged_dimensions(d)
-    return order, [k for k in order if rank_of[k] <= most or k in flagged], rank_of
+    return order, [k for k in order if props[k] is not None
+                   and (rank_of[k] <= most or k in flagged)], rank_of
 
 
 def _index_table(d: dict) -> list[str]:
@@ -183,8 +188,8 @@ def _index_table(d: dict) -> list[str]:
     order, shown, rank_of = dimensions_shown(d, per)
     if len(shown) < len(order):
         lines += wrap(f"{len(shown)} of the {len(order)} dimensions shown: the most "
-                      "ill-conditioned and the flagged ones (the JSON output, --json, has "
-                      "them all).")
+                      "ill-conditioned and the flagged ones (the JSON output, --json "
+                      "--with proportions, has them all).")
     for start in range(0, len(shown), per):
         chunk = shown[start:start + per]
         head = ["dimension"] + [f"#{rank_of[k]}" + ("!" if k in flagged else "")

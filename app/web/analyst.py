@@ -125,8 +125,9 @@ def _working(bench_cols: list[Any]) -> list[WorkingColumn]:
     return out
 
 
-def analyse(table: Table, settings: Settings) -> Analysis:
-    """Replay the recipe on the table and diagnose the design. Raises InputError."""
+def analyse(table: Table, settings: Settings, complete: bool = False) -> Analysis:
+    """Replay the recipe on the table and diagnose the design. Raises InputError.
+    complete: a wide design's extras too (every dimension's proportions, the spectra)."""
     start = time.perf_counter()
     trace = trace_design(table, list(settings.recipe))
     design: Design = trace.design
@@ -134,6 +135,7 @@ def analyse(table: Table, settings: Settings) -> Analysis:
     diag = diagnose(
         design.X, design.columns, design.y, response=design.response, groups=design.groups,
         keep=list(settings.keep) or None, ridge_penalty=settings.ridge,
+        all_proportions=complete, spectra=complete,
     )
     return Analysis(
         settings=settings,
@@ -149,13 +151,15 @@ def analyse(table: Table, settings: Settings) -> Analysis:
     )
 
 
-def on_source(source: Source, settings: Settings) -> Analysis:
-    """The diagnosis of a source's factor under the settings (keep, ridge, recipe steps)."""
+def on_source(source: Source, settings: Settings, complete: bool = False) -> Analysis:
+    """The diagnosis of a source's factor under the settings (keep, ridge, recipe steps).
+    complete: as for analyse."""
     started = time.perf_counter()
     got = source.factor_for(list(settings.recipe))
     lay = got.layout
     diag = diagnose_factor(got.F, response=lay.response, groups=lay.groups,
-                           keep=list(settings.keep) or None, ridge_penalty=settings.ridge)
+                           keep=list(settings.keep) or None, ridge_penalty=settings.ridge,
+                           all_proportions=complete, spectra=complete)
     # The controls list the working columns the factor holds, in recipe order.
     working = [WorkingColumn(e.name, e.kind, e.role, None, None) for e in got.ledger.entries
                if e.held is not None or e.level_ids]
@@ -293,6 +297,33 @@ class Analyst:
 
     def current(self, session: Session) -> Analysis:
         return self.analysis_at(session, session.position)
+
+    def complete(self, session: Session) -> dict[str, Any]:
+        """The current diagnosis with what a wide design's analysis leaves to whoever asks
+        (every dimension's proportions, the raw and centred spectra): for the full tables'
+        downloads. Computed on the held engine's factor when there is one (the factor the
+        analysis itself used), within the budget like any analysis."""
+        result = self.current(session)
+        d = result.diagnosis
+        if all(row is not None for row in d["variance_proportions"]) and all(
+                v is not None for v in d["singular_values"].values()):
+            return d
+        settings = result.settings
+
+        def run() -> dict[str, Any]:
+            if session.source.rows is None:
+                return on_source(session.source, settings, complete=True).diagnosis
+            held = self._held(session, settings.steps)
+            if held is None:
+                return analyse(session.table, settings, complete=True).diagnosis
+            full = held.engine.diagnose(keep=list(settings.keep) or None,
+                                        ridge_penalty=settings.ridge, all_proportions=True,
+                                        spectra=True)
+            return {**d, "variance_proportions": full.variance_proportions,
+                    "singular_values": full.singular_values}
+
+        return self.budget.run(("complete", session.session_id, id(session.table), settings),
+                               run, lambda _: None)
 
     def needs_rows(self, session: Session, what: str) -> None:
         """Raise InputError when `what` needs rows this session does not hold."""

@@ -39,6 +39,9 @@ class Held:
         were linear and left categorical, date and left-out columns alone).
     pairs: Spearman correlations by held-column ids, from that build (None: not known).
     spearman_note: the core's note on sampled rows for Spearman, if it made one.
+    basis: the basis of the last diagnosis on this engine or its parent: the core's hint
+        for the next one (diagnose_factor's basis_hint; a wide design then computes two
+        SVDs at once).
     """
 
     engine: EditEngine
@@ -46,6 +49,7 @@ class Held:
     notes: tuple[str, ...]
     pairs: Pairs | None
     spearman_note: str | None
+    basis: tuple[str, ...] = ()
 
 
 def _menu(levels: list[str]) -> list[str] | None:
@@ -124,7 +128,7 @@ def from_rows(table: Table, settings: Settings, engine: EditEngine | None = None
         rank_correlation=design.X.size <= SPEARMAN_CELLS,
     ).plain()
     held = Held(engine, _levels(table, settings, engine), tuple(design.notes),
-                _pairs(diag, engine), _spearman_note(diag["notes"]))
+                _pairs(diag, engine), _spearman_note(diag["notes"]), tuple(diag["basis"]))
     return Analysis(
         settings=settings, columns=list(design.columns), response=design.response,
         groups=dict(design.groups), rows_total=design.rows_total, rows_used=design.rows_used,
@@ -166,8 +170,8 @@ def on_factor(held: Held, settings: Settings, started: float | None = None) -> A
     """Diagnose the engine's factor (no rows) with the settings' keep list and penalty."""
     started = time.perf_counter() if started is None else started
     engine = held.engine
-    diag = engine.diagnose(keep=list(settings.keep) or None,
-                           ridge_penalty=settings.ridge).plain()
+    diag = engine.diagnose(keep=list(settings.keep) or None, ridge_penalty=settings.ridge,
+                           basis_hint=list(held.basis) or None).plain()
     return Analysis(
         settings=settings, columns=engine.columns, response=engine.response,
         groups=engine.groups, rows_total=engine.rows_total, rows_used=engine.rows_used,
@@ -188,8 +192,10 @@ def after_step(parent: Held, table: Table, settings: Settings, step: dict[str, A
         return from_rows(table, settings, outcome.engine, outcome.design, started)
     if _note_signature(outcome.engine) != _note_signature(parent.engine):
         return from_rows(table, settings, started=started)
-    held = Held(outcome.engine, parent.levels, parent.notes, parent.pairs, parent.spearman_note)
-    return on_factor(held, settings, started), held
+    held = Held(outcome.engine, parent.levels, parent.notes, parent.pairs, parent.spearman_note,
+                parent.basis)
+    result = on_factor(held, settings, started)
+    return result, replace(held, basis=tuple(result.diagnosis["basis"]))
 
 
 def spearman_from_rows(table: Table, settings: Settings, columns: list[str]

@@ -20,8 +20,8 @@ ORIGIN = ("source",)
 
 
 def _cli(*args: str) -> dict:
-    # The command computes the extras only when asked; inspect() computes both by default.
-    got = run("check", *args, "--json", "--with", "spearman,order")
+    # The command computes the extras only when asked; inspect() computes all by default.
+    got = run("check", *args, "--json", "--with", "spearman,order,proportions,spectra")
     assert got.code == 0, got.err
     return got.json()
 

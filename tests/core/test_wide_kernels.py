@@ -249,13 +249,30 @@ def test_wide_rank_path_matches_the_full_svds() -> None:
     X[:, p - 3] = X[:, 8] + 1e-4 * rng.normal(size=3 * p)
     names = ["(intercept)"] + [f"x{j:03d}" for j in range(1, p)]
     y = X[:, 1:10] @ rng.normal(size=9) + rng.normal(size=3 * p)
-    wide = diagnose(X, names, y)
+    wide = diagnose(X, names, y, all_proportions=True, spectra=True)
     old = dm.VALUES_FIRST_COLUMNS
     dm.VALUES_FIRST_COLUMNS = 10 * p
     try:
-        ref = diagnose(X, names, y)
+        ref = diagnose(X, names, y, all_proportions=True, spectra=True)
     finally:
         dm.VALUES_FIRST_COLUMNS = old
+    # Without the extras: the same numbers where given; the deficient design's raw and
+    # centred spectra are left out (both condition numbers are infinite by rule).
+    lean = diagnose(X, names, y)
+    assert lean.singular_values["raw"] is None and lean.singular_values["centered"] is None
+    assert lean.condition_number == ref.condition_number
+    assert lean.singular_values["equilibrated"] == wide.singular_values["equilibrated"]
+    given = [k for k, row in enumerate(lean.variance_proportions) if row is not None]
+    # Every dimension a reader would look at has its proportions (here all of them: the
+    # offsets put every column near the constant's direction, so most indices pass 10).
+    assert all(lean.variance_proportions[k] is not None
+               for k, x in enumerate(lean.condition_indices) if x is None or x >= 10)
+    for k in given:
+        assert np.allclose([lean.variance_proportions[k][c] for c in names],
+                           [ref.variance_proportions[k][c] for c in names], atol=1e-9)
+    assert lean.near_dependencies == wide.near_dependencies or all(
+        a["columns"] == b["columns"] for a, b in zip(lean.near_dependencies,
+                                                     ref.near_dependencies, strict=True))
     assert wide.rank == ref.rank == p - 2
     assert wide.basis == ref.basis
     assert [r["equation"] for r in wide.dependencies] == [r["equation"]

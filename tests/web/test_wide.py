@@ -297,3 +297,31 @@ def test_markup_in_names_stays_text_on_the_wide_page(app_client) -> None:
     for b in app_client.get(f"/api/s/{sid}/blocks").json()["blocks"]:
         one = app_client.get(f"/api/s/{sid}/blocks/{b['number']}").json()
         assert "<img" not in json.dumps(one["figure"]["data"][0]["x"])
+
+
+def test_a_wide_basis_pages_the_shown_dimensions_and_downloads_them_all(app_client) -> None:
+    """Past 200 basis columns the analysis keeps the proportions of the dimensions of index
+    10 or more only (docs/json.md); the page says where the rest are, and the download
+    computes them: each basis column's shares sum to 1 (BKW 1980 §3.2)."""
+    r = app_client.post("/api/upload", files={
+        "file": ("wider.csv", wide_csv(n=1100, levels=220, seed=5), "text/csv")})
+    assert r.status_code == 201, r.text
+    sid = r.json()["session"]
+    assert step(app_client, sid, {"step": "response", "column": "y"}).status_code == 200
+    d = app_client.get(f"/api/s/{sid}/diagnosis").json()
+    given = [row is not None for row in d["variance_proportions"]]
+    assert len(d["basis"]) >= 200 and 0 < sum(given) < len(given) // 4
+    idx = page(app_client, sid, "indices", limit=MOST_ROWS)
+    assert any("shares in the download" in row["cells"][3] for row in idx["rows"])
+    assert any("temp_f" in r["cells"][3] for r in idx["rows"] if "flagged" in r["mark"])
+    table = rows_of(app_client.get(f"/api/s/{sid}/export/tables/indices").text)
+    props = np.array([[float(x) for x in row[3:]] for row in table[1:]])
+    exact = np.array([row[2] == "true" for row in table[1:]])
+    basis = np.array([c in d["basis"] for c in d["columns"]])
+    assert not np.isnan(props).any()
+    assert props[~exact][:, basis].sum(axis=0) == pytest.approx(np.ones(basis.sum()),
+                                                               abs=1e-9)
+    # the rows the analysis gave are the download's
+    for k, row in enumerate(d["variance_proportions"]):
+        if row is not None:
+            assert props[k] == pytest.approx([row[c] for c in d["columns"]], abs=1e-12)

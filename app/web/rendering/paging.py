@@ -125,7 +125,10 @@ def _index_rows(d: dict[str, Any]) -> list[Row]:
     for k, idx in enumerate(d.get("condition_indices") or []):
         props = props_all[k] if k < len(props_all) else None
         if props is None:
-            text, largest, high, flagged = "not computed", None, [], False
+            # A wide design's dimension of low index (docs/json.md): its shares are in the
+            # table's download, computed when asked.
+            text, largest, high, flagged = ("index below 10: shares in the download", None,
+                                            [], False)
         else:
             ranked = sorted(props.items(), key=lambda kv: -kv[1])
             high = [(c, p) for c, p in ranked if p > mark]
@@ -397,7 +400,7 @@ def table_csv(d: dict[str, Any], name: str) -> Iterator[str]:
 
         def index_rows() -> Iterator[list[Any]]:
             for k, idx in enumerate(d.get("condition_indices") or []):
-                p = props[k] if k < len(props) else {}
+                p = (props[k] if k < len(props) else None) or {}
                 yield [k + 1, math.inf if idx is None else idx,
                        bool(exact[k]) if k < len(exact) else None,
                        *[p.get(c) for c in cols]]

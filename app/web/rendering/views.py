@@ -153,7 +153,7 @@ def index_rows(diagnosis: dict[str, Any]) -> list[dict[str, Any]]:
     near = diagnosis["near_dependencies"]
     for k, idx in enumerate(diagnosis["condition_indices"]):
         props = diagnosis["variance_proportions"][k]
-        match = next(
+        match = None if props is None else next(
             (n for n in near if n["index"] == idx
              and all(props.get(c) == p for c, p in n["proportions"].items())),
             None,

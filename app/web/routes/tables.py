@@ -45,7 +45,12 @@ def table_download(request: Request, session_id: str, name: str) -> StreamingRes
     if name not in paging.DOWNLOADS:
         raise InputError(f"there is no table download called {name!r}", "download",
                          "Use one of: " + ", ".join(paging.DOWNLOADS))
-    session, d = _diagnosis(request, session_id)
+    analyst = analyst_of(request)
+    session = analyst.session(session_id)
+    # The indices table is complete in the download: a wide design's analysis leaves out
+    # the proportions of its dimensions of low index until asked.
+    d = (guarded("the full index table", analyst.complete, session) if name == "indices"
+         else analyst.current(session).diagnosis)
     file = download_name(session.title or session.table.source, paging.DOWNLOADS[name][0])
     # The name is letters, digits, dots, dashes and underscores only (download_name).
     headers = {"Content-Disposition": f'attachment; filename="{file}"',
