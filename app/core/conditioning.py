@@ -5,6 +5,7 @@ proportions. Works on small triangular factors only; no names beyond lists, no I
 from __future__ import annotations
 
 import math
+from collections.abc import Callable
 from dataclasses import dataclass
 
 import numpy as np
@@ -116,23 +117,25 @@ SUBSET_GAP = 0.3
 SUBSET_SWEEPS = 15
 
 
-def shown_dimensions(d: np.ndarray, index_floor: float) -> int:
+def shown_dimensions(d: np.ndarray, index_floor: float) -> int | None:
     """How many of the smallest singular values d (descending, all > 0) get proportions on
-    a wide design: those with index d_max/d_k ≥ index_floor, extended to the next gap that
-    the subspace iteration can use (a wider set only adds rows). 0 when the basis is
-    narrow or the set would be more than SUBSET_SHARE of it: the caller then takes every
-    dimension from the full SVD."""
+    a wide design: those with index d_max/d_k ≥ index_floor (0 when none has), extended to
+    the next gap that the subspace iteration can use (a wider set only adds rows). None
+    when the basis is narrow or the set would be more than SUBSET_SHARE of it: the caller
+    then takes every dimension from the full SVD."""
     k = d.size
     if k < WIDE_DIMENSIONS:
-        return 0
+        return None
     top = float(d[0])
     s = d[::-1]  # ascending
     m = int(np.count_nonzero(top >= index_floor * s))
+    if m == 0:
+        return 0
     cap = int(SUBSET_SHARE * k)
-    for size in range(max(m, 1), cap + 1):
+    for size in range(m, cap + 1):
         if s[size - 1] <= SUBSET_GAP * s[size + GUARD]:
             return size
-    return 0
+    return None
 
 
 def smallest_right_vectors(R: np.ndarray, d: np.ndarray, m: int) -> np.ndarray | None:
@@ -174,28 +177,31 @@ def smallest_right_vectors(R: np.ndarray, d: np.ndarray, m: int) -> np.ndarray |
 def subset_index_table(
     R: np.ndarray,
     d: np.ndarray,
-    R_inv: np.ndarray,
+    R_inv: Callable[[], np.ndarray],
     m: int,
     index_threshold: float = INDEX_THRESHOLD,
     proportion_threshold: float = PROPORTION_THRESHOLD,
 ) -> IndexTable | None:
-    """index_table of a wide basis with the proportions of its m largest indices only; the
-    other rows are NaN. None when the vectors fail their check.
+    """index_table of a wide basis with the proportions of its m largest indices only
+    (none when m is 0); None when the vectors fail their check.
 
     R: (k, k) upper triangular factor of the unit-length basis columns, d: its singular
-    values (descending), R_inv: R⁻¹. The denominators Σ_k φ_jk = Σ_k v_jk²/d_k² are the
-    diagonal of (RᵀR)⁻¹ = R⁻¹R⁻ᵀ, the squared row lengths of R⁻¹ (Belsley, Kuh & Welsch
-    1980, eq. 3.10: var(b_j)/σ² of the unit-length design), so the proportions of a
-    dimension need its own vector only. Every flagged row is among the m (shown_dimensions
-    counts from an index below the mark).
+    values (descending), R_inv: gives R⁻¹ (only asked for when m > 0). The denominators
+    Σ_k φ_jk = Σ_k v_jk²/d_k² are the diagonal of (RᵀR)⁻¹ = R⁻¹R⁻ᵀ, the squared row
+    lengths of R⁻¹ (Belsley, Kuh & Welsch 1980, eq. 3.10: var(b_j)/σ² of the unit-length
+    design), so the proportions of a dimension need its own vector only. Every flagged
+    row is among the m (shown_dimensions counts from an index below the mark).
     """
-    V = smallest_right_vectors(R, d, m)
-    if V is None:
-        return None
     k = d.size
     dmax = d[0]
     dfl = np.maximum(d, dmax * EPS * EPS)
-    total = np.einsum("ij,ij->i", R_inv, R_inv)
+    if m == 0:
+        return IndexTable(dmax / dfl, np.zeros((0, k)), [], (d <= 0).tolist(), first=k)
+    V = smallest_right_vectors(R, d, m)
+    if V is None:
+        return None
+    inv = R_inv()
+    total = np.einsum("ij,ij->i", inv, inv)
     prop = ((V**2) / dfl[None, k - m:] ** 2 / total[:, None]).T
     idx = dmax / dfl
     above = prop > proportion_threshold

@@ -191,20 +191,21 @@ Guess = tuple[tuple[list[int], list[int]], Future]
 
 
 def _guessed_basis(F: Factorization, hint: list[str], order: list[int]) -> Guess | None:
-    """The singular values of the basis factor that rank.decide would make if the basis
-    were the hinted columns (a caller's previous basis: after dropping or adding one column
-    it is usually the new one), computed on the side thread while the rank decision's own
-    SVD runs: the same call on the same arguments, so the same numbers when the guess is
-    right. Returns ((basis in QR order, dependent), future of the values), or None."""
+    """The singular values of the basis factor that rank.decide would make if the dependent
+    columns were the hinted ones (those a caller's previous diagnosis wrote through the
+    others: after dropping or adding one column they usually stay the same), computed on
+    the side thread while the rank decision's own SVD runs: the same call on the same
+    arguments, so the same numbers when the guess is right. Returns ((basis in QR order,
+    dependent), future of the values), or None."""
     names = F.columns
-    inside = set(hint)
-    basis = [j for j in order if names[j] in inside]
+    outside = set(hint)
+    basis = [j for j in order if names[j] not in outside]
     if not basis or len(basis) == len(order):
         return None
     consts = F.constant_columns
     first = [j for j in basis if j in consts]
     qr_order = first + [j for j in basis if j not in first]
-    dependent = [j for j in order if names[j] not in inside]
+    dependent = [j for j in order if names[j] in outside]
     A, rhs = F.R_x, F.R_xy[:F.p, F.p]
     return (qr_order, dependent), _side_pool().submit(
         lambda: cnd.singular_values(basis_factor(A, qr_order, dependent, rhs).R11))
@@ -297,8 +298,8 @@ def basis_index_table(basis: Basis, A: np.ndarray, svd: Svd, every: bool,
         else:
             d = cnd.singular_values(R11)
         m = cnd.shown_dimensions(d, min(cnd.PROPORTION_INDEX, index_threshold))
-        t = cnd.subset_index_table(R11, d, triangular_inverse(R11), m, index_threshold,
-                                   proportion_threshold) if m else None
+        t = None if m is None else cnd.subset_index_table(
+            R11, d, lambda: triangular_inverse(R11), m, index_threshold, proportion_threshold)
         if t is not None:  # R11's columns are in QR order: put them in ascending order
             at = {j: i for i, j in enumerate(basis.basis)}
             perm = [at[j] for j in in_basis]
@@ -341,7 +342,7 @@ def diagnose_factor(
     order: bool = True,
     all_proportions: bool = False,
     spectra: bool = False,
-    basis_hint: list[str] | None = None,
+    deferred_hint: list[str] | None = None,
 ) -> Diagnosis:
     """Every diagnostic from one Factorization.
 
@@ -354,9 +355,10 @@ def diagnose_factor(
     more), which gets by default the proportions of its dimensions of index
     cnd.PROPORTION_INDEX or more only (the other rows None) and the raw and centred
     singular values only where a condition number needs them (else None). Narrower
-    designs always get both in full. basis_hint: the basis a previous diagnosis of a
-    nearly equal design found; a wide deficient design then computes its basis' singular
-    values beside its own (the results are the same with or without it).
+    designs always get both in full. deferred_hint: the dependent columns (those on the
+    left of an equation) of a previous diagnosis of a nearly equal design; a wide
+    deficient design then computes its basis' singular values beside its own SVD (the
+    results are the same with or without it, right or wrong).
 
     tol: absolute rank tolerance on the singular values of the unit-length X (Xe);
     default σ_max·max(n, p)·eps. keep: columns to keep in the basis when columns are
@@ -378,8 +380,8 @@ def diagnose_factor(
     early = spectra or p < cnd.WIDE_DIMENSIONS or maybe_full_rank(F, tol)
     side = _side_spectra(F, Zc) if early and p >= SIDE_SPECTRA_COLUMNS else None
     order_of_basis = priority_order(names, keep)
-    guess = (_guessed_basis(F, basis_hint, order_of_basis)
-             if basis_hint and not early and not all_proportions
+    guess = (_guessed_basis(F, deferred_hint, order_of_basis)
+             if deferred_hint and not early and not all_proportions
              and p >= max(VALUES_FIRST_COLUMNS, cnd.WIDE_DIMENSIONS) else None)
     svd, null, tol_used = rank_spectrum(F, tol)
     sv_eq = svd[1]

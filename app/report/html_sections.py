@@ -106,6 +106,12 @@ def index_table(d: dict) -> str:
     names, idx = d["columns"], d["condition_indices"]
     props, exact, th = d["variance_proportions"], d["index_exact"], d["thresholds"]
     order, shown, rank_of = dimensions_shown(d, WIDE_DIMENSIONS)
+    if not shown and order:
+        top = max((x for x in idx if x is not None), default=None)
+        return section("indices", "Condition indices and variance shares", para(
+            f"No dimension of the {len(order)} reaches a condition index of 10 (the largest is "
+            f"{num(top, 3, INF)}): no near-dependency to show. Every share is in "
+            "`rankscope check --json --with proportions`."))
     flagged = flagged_dimensions(d)
     head = ["", *[f"#{rank_of[k]}{' !' if k in flagged else ''}" for k in shown]]
     rows = [["condition index", *["exact" if exact[k] else num(idx[k], 3, INF) for k in shown]]]

@@ -186,6 +186,12 @@ def _index_table(d: dict) -> list[str]:
     name_w = max(len(n) for n in names + ["condition index"])
     per = max(1, (WIDTH - name_w - 4) // 8)
     order, shown, rank_of = dimensions_shown(d, per)
+    if not shown and order:
+        top = max((x for x in idx if x is not None), default=None)
+        return lines + wrap(
+            f"No dimension of the {len(order)} reaches a condition index of 10 (the largest "
+            f"is {num(top, 3, INF)}): no near-dependency to show. Every proportion is in the "
+            "JSON output with --json --with proportions.")
     if len(shown) < len(order):
         lines += wrap(f"{len(shown)} of the {len(order)} dimensions shown: the most "
                       "ill-conditioned and the flagged ones (the JSON output, --json "

@@ -39,9 +39,9 @@ class Held:
         were linear and left categorical, date and left-out columns alone).
     pairs: Spearman correlations by held-column ids, from that build (None: not known).
     spearman_note: the core's note on sampled rows for Spearman, if it made one.
-    basis: the basis of the last diagnosis on this engine or its parent: the core's hint
-        for the next one (diagnose_factor's basis_hint; a wide design then computes two
-        SVDs at once).
+    deferred: the dependent columns of the last diagnosis on this engine or its parent:
+        the core's hint for the next one (diagnose_factor's deferred_hint; a wide design
+        then computes two SVDs at once).
     """
 
     engine: EditEngine
@@ -49,7 +49,7 @@ class Held:
     notes: tuple[str, ...]
     pairs: Pairs | None
     spearman_note: str | None
-    basis: tuple[str, ...] = ()
+    deferred: tuple[str, ...] = ()
 
 
 def _menu(levels: list[str]) -> list[str] | None:
@@ -107,6 +107,11 @@ SPEARMAN_CELLS = 2_000_000
 REUSE_FACTOR_COLUMNS = 200
 
 
+def deferred_of(diag: dict[str, Any]) -> tuple[str, ...]:
+    """The columns a diagnosis wrote through the others (its dependencies' left sides)."""
+    return tuple(r["column"] for r in diag["dependencies"])
+
+
 def from_rows(table: Table, settings: Settings, engine: EditEngine | None = None,
               design: Design | None = None, started: float | None = None
               ) -> tuple[Analysis, Held]:
@@ -128,7 +133,7 @@ def from_rows(table: Table, settings: Settings, engine: EditEngine | None = None
         rank_correlation=design.X.size <= SPEARMAN_CELLS,
     ).plain()
     held = Held(engine, _levels(table, settings, engine), tuple(design.notes),
-                _pairs(diag, engine), _spearman_note(diag["notes"]), tuple(diag["basis"]))
+                _pairs(diag, engine), _spearman_note(diag["notes"]), deferred_of(diag))
     return Analysis(
         settings=settings, columns=list(design.columns), response=design.response,
         groups=dict(design.groups), rows_total=design.rows_total, rows_used=design.rows_used,
@@ -171,7 +176,7 @@ def on_factor(held: Held, settings: Settings, started: float | None = None) -> A
     started = time.perf_counter() if started is None else started
     engine = held.engine
     diag = engine.diagnose(keep=list(settings.keep) or None, ridge_penalty=settings.ridge,
-                           basis_hint=list(held.basis) or None).plain()
+                           deferred_hint=list(held.deferred) or None).plain()
     return Analysis(
         settings=settings, columns=engine.columns, response=engine.response,
         groups=engine.groups, rows_total=engine.rows_total, rows_used=engine.rows_used,
@@ -193,9 +198,9 @@ def after_step(parent: Held, table: Table, settings: Settings, step: dict[str, A
     if _note_signature(outcome.engine) != _note_signature(parent.engine):
         return from_rows(table, settings, started=started)
     held = Held(outcome.engine, parent.levels, parent.notes, parent.pairs, parent.spearman_note,
-                parent.basis)
+                parent.deferred)
     result = on_factor(held, settings, started)
-    return result, replace(held, basis=tuple(result.diagnosis["basis"]))
+    return result, replace(held, deferred=deferred_of(result.diagnosis))
 
 
 def spearman_from_rows(table: Table, settings: Settings, columns: list[str]

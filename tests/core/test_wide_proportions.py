@@ -83,7 +83,8 @@ def test_the_subset_iteration_refuses_a_spectrum_without_a_gap() -> None:
     # Singular values evenly spaced: no gap near the wanted ones, so the caller must take
     # the full SVD (reference: the construction R = diag(d), whose SVD is known exactly).
     d = np.linspace(1.0, 0.5, P)
-    assert cnd.shown_dimensions(d, 1.5) == 0
+    assert cnd.shown_dimensions(d, 1.5) is None
+    assert cnd.shown_dimensions(d, 10.0) == 0  # no index reaches 10: nothing to show
     assert cnd.smallest_right_vectors(np.diag(d), d, 5) is None
     # With a gap, the vectors are the unit vectors of the smallest entries.
     d2 = np.concatenate([np.linspace(1.0, 0.5, P - 2), [1e-4, 1e-6]])
@@ -94,8 +95,8 @@ def test_the_subset_iteration_refuses_a_spectrum_without_a_gap() -> None:
     assert np.allclose(np.abs(V), np.eye(P)[:, P - 2:], atol=1e-12)
 
 
-def test_a_basis_hint_changes_nothing_but_the_time() -> None:
-    """The hinted basis' SVD runs beside the rank decision's; right, wrong or absent, the
+def test_a_deferred_hint_changes_nothing_but_the_time() -> None:
+    """The hinted basis. SVD runs beside the rank decision's; right, wrong or absent, the
     diagnosis is the same to the last bit (the same LAPACK calls on the same arrays)."""
     from rankscope.core.diagnosis import diagnose_factor
     from rankscope.core.factor import factorize
@@ -103,8 +104,9 @@ def test_a_basis_hint_changes_nothing_but_the_time() -> None:
     X, names = planted(7)
     F = factorize(X, names)
     plain = diagnose_factor(F).to_dict()
-    right = diagnose_factor(F, basis_hint=plain["basis"]).to_dict()
-    wrong = diagnose_factor(F, basis_hint=[c for c in names if c != "c031"]).to_dict()
+    right = diagnose_factor(F, deferred_hint=[r["column"] for r in plain["dependencies"]])
+    wrong = diagnose_factor(F, deferred_hint=["c031"])
     assert plain["rank"] == P - 1 and "c031" in plain["basis"]
+    right, wrong = right.to_dict(), wrong.to_dict()
     assert right == plain
     assert wrong == plain
