@@ -7,6 +7,7 @@ form the basis is decided in rankscope.core.rank.
 from __future__ import annotations
 
 from dataclasses import dataclass
+from functools import cached_property
 
 import numpy as np
 
@@ -31,6 +32,13 @@ class Basis:
     R12: np.ndarray
     remainder: np.ndarray
     qty: np.ndarray
+
+    @cached_property
+    def R11_inverse(self) -> np.ndarray:
+        """(k, k) R11⁻¹, made once for whoever needs it (standard errors, proportions)."""
+        from rankscope.core.inflation import triangular_inverse
+
+        return triangular_inverse(self.R11) if self.R11.size else np.zeros((0, 0))
 
 
 def basis_factor(

@@ -18,7 +18,7 @@ from rankscope.core.correlation import cluster_order, pearson_from_factor, spear
 from rankscope.core.dependencies import data_residual, null_vectors, relations
 from rankscope.core.factor import Factorization, factorize
 from rankscope.core.fit import fit_least_squares
-from rankscope.core.inflation import gvif, triangular_inverse, vif_from_factor
+from rankscope.core.inflation import gvif, vif_from_factor
 from rankscope.core.influence import leave_one_out
 from rankscope.core.numbers import finite_or_none
 from rankscope.core.rank import (
@@ -303,7 +303,7 @@ def basis_index_table(basis: Basis, A: np.ndarray, svd: Svd, every: bool,
             d = cnd.singular_values(R11)
         m = cnd.shown_dimensions(d, min(cnd.PROPORTION_INDEX, index_threshold))
         t = None if m is None else cnd.subset_index_table(
-            R11, d, lambda: triangular_inverse(R11), m, index_threshold, proportion_threshold)
+            R11, d, lambda: basis.R11_inverse, m, index_threshold, proportion_threshold)
         if t is not None:  # R11's columns are in QR order: put them in ascending order
             at = {j: i for i, j in enumerate(basis.basis)}
             perm = [at[j] for j in in_basis]

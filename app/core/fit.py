@@ -13,7 +13,6 @@ from scipy.linalg import qr, solve_triangular
 from rankscope.core.basis import Basis, basis_factor
 from rankscope.core.dependencies import Relation
 from rankscope.core.factor import EPS, Factorization, column_norms
-from rankscope.core.inflation import triangular_inverse
 from rankscope.core.numbers import finite_or_none, short_number
 
 #: Refinement runs when the rows are kept and either the problem is small (n·k below
@@ -176,7 +175,7 @@ def fit_least_squares(F: Factorization, basis: Basis, relations: list[Relation],
     centered = F.constant_in_span
     tss = float(np.sum(F.centered[:, -1] ** 2) if centered else np.sum(F.T[:, -1] ** 2))
     s = float(np.sqrt(rss / df_res)) if df_res > 0 else None
-    Rinv = triangular_inverse(basis.R11) if k else np.zeros((0, 0))
+    Rinv = basis.R11_inverse
     se = (np.sqrt((Rinv**2).sum(axis=1)) / F.scales[B] * s) if (k and s is not None) else None
     coef: dict[str, float | None] = {c: None for c in names}
     ses: dict[str, float | None] = {c: None for c in names}
