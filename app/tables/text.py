@@ -79,9 +79,15 @@ class TextColumn:
         uniques = enc.chunk(0).dictionary
         if given and len(pc.unique(uniques)) < len(uniques):  # a value listed twice
             return cls.from_arrow(arr.cast(arr.type.value_type), markers)
-        indices = pa.chunked_array([c.indices for c in enc.chunks], enc.type.index_type)
-        codes = pc.fill_null(indices.combine_chunks(), -1).to_numpy()
-        counts = np.bincount(codes + 1, minlength=len(uniques) + 1)[1:]
+        indices = (enc.chunk(0).indices if enc.num_chunks == 1 else
+                   pa.chunked_array([c.indices for c in enc.chunks],
+                                    enc.type.index_type).combine_chunks())
+        if indices.null_count:
+            codes = pc.fill_null(indices, -1).to_numpy()
+            counts = np.bincount(codes + 1, minlength=len(uniques) + 1)[1:]
+        else:  # no copy, and no shift of the codes to count them
+            codes = indices.to_numpy()
+            counts = np.bincount(codes, minlength=len(uniques))
         if given:
             uniques, codes, counts = _used(uniques, codes, counts)
         return cls(uniques, codes, markers, counts)
