@@ -25,6 +25,7 @@ from __future__ import annotations
 
 import csv
 import os
+import time
 import warnings
 from collections.abc import Collection
 from concurrent.futures import ThreadPoolExecutor
@@ -57,10 +58,13 @@ _pool: ThreadPoolExecutor | None = None
 
 
 def read_plain(path: Path, head: bytes, where: str, ext: str, declared: Collection[str] = (),
-               max_columns: int | None = None) -> Raw | None:
+               max_columns: int | None = None,
+               timings: dict[str, float] | None = None) -> Raw | None:
     """The Raw table of the CSV file at path (head: its first bytes, at least
     sniff.SAMPLE_BYTES + 3 of them), or None when the file is not plain or the result could
-    differ from delimited.read_text's."""
+    differ from delimited.read_text's. timings: if given, gets the seconds each stage took
+    (for the read benchmark)."""
+    lap = _Laps(timings)
     off = 3 if head.startswith(b"\xef\xbb\xbf") else 0
     sample = head[off : off + sniff.SAMPLE_BYTES]
     if b'"' in sample or sniff.looks_binary(sample) or utf16_without_bom(sample):
@@ -82,7 +86,9 @@ def read_plain(path: Path, head: bytes, where: str, ext: str, declared: Collecti
         or not _plain_types(complete, delimiter)
     ):
         return None
+    lap("sniff")
     frame = _pandas(path, delimiter, [n for n in declared if n in header])
+    lap("parse")
     if frame is None or list(frame.columns) != header or len(frame) == 0:
         return None
     index = frame.index
@@ -92,7 +98,9 @@ def read_plain(path: Path, head: bytes, where: str, ext: str, declared: Collecti
     if any(c is None for c in columns):
         return None
     texts = [j for j, c in enumerate(columns) if pat.is_large_string(c.type)]
-    for j, encoded in zip(texts, _encode([columns[j] for j in texts]), strict=True):
+    encoded_texts = _encode([columns[j] for j in texts])
+    lap("text codes")
+    for j, encoded in zip(texts, encoded_texts, strict=True):
         uniques = encoded.dictionary
         if pc.any(pc.match_substring(uniques, '"')).as_py():
             return None
@@ -101,6 +109,7 @@ def read_plain(path: Path, head: bytes, where: str, ext: str, declared: Collecti
         columns[j] = encoded
     if _has_missing(columns[-1]) and not _fields_ok(path, off, delimiter, len(frame), len(header)):
         return None
+    lap("checks")
     note = dialect_note(delimiter, ".")
     return Raw(
         names=header,
@@ -111,6 +120,19 @@ def read_plain(path: Path, head: bytes, where: str, ext: str, declared: Collecti
         cell=lambda pos, j: cell_text(path.read_bytes(), off, delimiter, pos, j),
         notes=[note] if note else [],
     )
+
+
+class _Laps:
+    """Seconds since the last lap, by name, into a dict (nothing without one)."""
+
+    def __init__(self, into: dict[str, float] | None) -> None:
+        self.into, self.last = into, time.perf_counter()
+
+    def __call__(self, name: str) -> None:
+        if self.into is not None:
+            now = time.perf_counter()
+            self.into[name] = now - self.last
+            self.last = now
 
 
 def _plain_types(text: str, delimiter: str) -> bool:
@@ -181,7 +203,11 @@ def _codes(chunk: pa.Array) -> tuple[pa.Array, np.ndarray, bool]:
 
 def _merge(parts: list[tuple[pa.Array, np.ndarray, bool]]) -> pa.DictionaryArray:
     merged = pc.dictionary_encode(pa.concat_arrays([d for d, _, _ in parts]))
-    uniques, where = merged.dictionary, merged.indices.to_numpy()
+    # In sorted order, which categories keep: their codes then need no second lookup.
+    order = pc.array_sort_indices(merged.dictionary).to_numpy()
+    rank = np.empty(len(order), np.int32)
+    rank[order] = np.arange(len(order), dtype=np.int32)
+    uniques, where = merged.dictionary.take(order), rank[merged.indices.to_numpy()]
     missing = len(uniques)  # the code of a missing cell, if there is one
     codes = np.empty(sum(len(c) for _, c, _ in parts), np.int32)
     start = stop = 0
