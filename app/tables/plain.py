@@ -1,11 +1,11 @@
-"""Big plain CSV files (no quotes, one line per row) read by pandas' C reader, which splits a
-file among threads; each column comes out as delimited.read_text would give it, or not at all.
+"""Big plain CSV files (no quotes, one line per row) read by pandas' threaded C reader.
 
-Declines (None) wherever it cannot show its result equal to read_text's; raises nothing for a
-bad file (read_text words every message) and decides no kinds (infer.py does).
+Must give delimited.read_text's result or none (None: that reader then reads the file, and
+words every message); raises nothing for a bad file and decides no kinds (infer.py does).
 
-Why: on 2 cores pandas' parallel reader parses such a file in about 0.7 times pyarrow's time,
-and most tables are such files. What keeps the two readers' results equal:
+Why: pandas 3.1 parses a file of 5 MiB or more in threads, which on the 2-core machine took
+about 0.7 of pyarrow's time (docs/speed.md), and most tables are such files. What keeps the
+result equal to read_text's:
 - the same missing markers; numbers and true/false words parsed by both into the same values
   (both parse numbers with correctly rounded fast_float; integers become float64 the same way);
 - text columns checked against pyarrow itself: their distinct values parsed by pyarrow with
@@ -15,10 +15,13 @@ and most tables are such files. What keeps the two readers' results equal:
   name), the header's names unchanged (pandas renames blank and repeated ones), and every row
   as many fields as the header: pandas fills a short row with missing cells, so when the last
   column has a missing cell the delimiters are counted (a blank line is a short row too).
-Then row i sits on line i + 2, as read_text numbers it for such files. One difference is
-left: in a column of whole numbers one of which is written with a '+' (pyarrow then reads the
-column as floats, pandas still as integers), a '-0' is -0.0 there and 0.0 here; the two are
-equal as numbers.
+Then row i sits on line i + 2, as read_text numbers it for such files. One difference is left:
+in a column of whole numbers one of which is written with a '+' (pyarrow then reads the column
+as floats, pandas still as integers), a '-0' is -0.0 there and 0.0 here (equal as numbers).
+
+Trade-off: pandas maps the file into memory to share it among its threads (read.py's _load
+copies a file instead), so a program that shortens the file while it is being read can stop
+this process with SIGBUS, as it can pandas.read_csv itself.
 """
 
 from __future__ import annotations

@@ -173,6 +173,7 @@ def test_big_plain_file_takes_the_plain_path_and_matches_pandas_and_pyarrow(big)
         ("date", False),  # a date among words is text to both
         ("inf", False),  # both read it as infinite: the same message
         ("text", False),  # text among numbers: the same message, same line
+        ("fraction", False),  # a fraction among whole numbers: pyarrow's first block said int
         ("empty last", False),  # missing cells in the last column: delimiters counted
     ],
 )
@@ -189,8 +190,8 @@ def test_big_file_with_a_late_oddity_reads_as_the_pyarrow_path(big, tmp_path, ch
         row.append("1")
     elif change == "quote":
         row[5] = '"north"'
-    elif change in ("NAN", "inf", "text"):
-        row[4] = {"NAN": "NAN", "inf": "inf", "text": "oops"}[change]
+    elif change in ("NAN", "inf", "text", "fraction"):
+        row[4] = {"NAN": "NAN", "inf": "inf", "text": "oops", "fraction": "2.5"}[change]
     elif change == "date":
         row[5] = "2020-01-01"
     elif change == "empty last":
