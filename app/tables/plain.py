@@ -60,6 +60,14 @@ COUNT_BLOCK = 1 << 22
 _pool: ThreadPoolExecutor | None = None
 
 
+def _forget_pool() -> None:
+    global _pool
+    _pool = None  # a forked child has none of the parent's threads: it starts its own pool
+
+
+os.register_at_fork(after_in_child=_forget_pool)
+
+
 def read_plain(path: Path, head: bytes, where: str, ext: str, declared: Collection[str] = (),
                max_columns: int | None = None,
                timings: dict[str, float] | None = None) -> Raw | None:

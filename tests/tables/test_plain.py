@@ -212,3 +212,19 @@ def test_declared_kinds_on_the_plain_path(big):
     assert answered
     assert_same(fast, slow)
     assert fast.kinds["k"] == "categorical"
+
+
+def test_a_forked_child_hashes_text_with_its_own_threads(big):
+    """A pool made before a fork has no threads in the child; the child must not wait on it."""
+    import multiprocessing
+
+    path, _ = big
+    read_table(path)  # the parent's pool exists now
+    ctx = multiprocessing.get_context("fork")
+    with ctx.Pool(1) as pool:
+        kinds = pool.apply_async(_kinds, (path,)).get(timeout=120)
+    assert kinds["region"] == "categorical"
+
+
+def _kinds(path: Path) -> dict[str, str]:
+    return read_table(path).kinds
