@@ -228,3 +228,19 @@ def test_a_forked_child_hashes_text_with_its_own_threads(big):
 
 def _kinds(path: Path) -> dict[str, str]:
     return read_table(path).kinds
+
+
+def test_text_with_new_values_in_later_chunks_and_missing_cells(tmp_path):
+    """pandas' chunks of a text column are looked up in the first chunk's values; a chunk with
+    values of its own is hashed itself. Reference: the pyarrow path on the same file."""
+    rng = np.random.default_rng(1)
+    n = 400_000
+    table = pd.DataFrame({"x": rng.normal(size=n), "t": [f"v{i // 20_000}" for i in range(n)],
+                          "u": rng.choice(["a", "b", ""], n)})
+    path = tmp_path / "levels.csv"
+    table.to_csv(path, index=False)
+    fast, slow, answered = read_both(path)
+    assert answered
+    assert_same(fast, slow)
+    assert len(fast.frame["t"].cat.categories) == 20
+    assert fast.frame["u"].isna().sum() == (table["u"] == "").sum()
