@@ -262,8 +262,9 @@ def _stays_text(uniques: pa.Array, delimiter: str) -> bool:
 def _has_missing(column: pa.Array | pa.ChunkedArray) -> bool:
     if pat.is_floating(column.type):
         return bool(np.isnan(column.to_numpy(zero_copy_only=False)).any())
-    if pat.is_dictionary(column.type):
-        return column.dictionary.null_count > 0
+    if pat.is_dictionary(column.type):  # pandas fills a short row's text fields with ''
+        values = column.dictionary
+        return values.null_count > 0 or bool(pc.any(pc.equal(values, "")).as_py())
     return column.null_count > 0
 
 
