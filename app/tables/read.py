@@ -191,8 +191,7 @@ def _read_plain(p: Path, head: bytes, where: str, sheet, kinds,
         return None
     from rankscope.tables.plain import read_plain
 
-    raw = read_plain(p, head, where, ext, declared=(kinds or {}).keys(),
-                           max_columns=shape[1])
+    raw = read_plain(p, head, where, ext, declared=(kinds or {}).keys(), max_columns=shape[1])
     return None if raw is None else _finish(raw, fmt, ext, sheet, kinds, shape)
 
 
