@@ -28,6 +28,7 @@ from __future__ import annotations
 
 import csv
 import os
+import re
 import time
 import warnings
 from collections.abc import Collection
@@ -52,6 +53,11 @@ from rankscope.tables.delimited import (
 from rankscope.tables.raw import Raw
 from rankscope.tables.text import MISSING_MARKERS
 
+#: The first pandas this way is used with: from 3.1 on pandas parses every float with one
+#: correctly rounded converter (its read_csv docstring: 'All float precision modes now use the
+#: same converter'; before, the default could differ from pyarrow in the last bit) and splits a
+#: big file among threads (before, one thread: slower than pyarrow's reader on 2 cores).
+PANDAS_FROM = (3, 1)
 #: Column types a sample may show for the file to be read here (what pandas' reader also gives).
 PLAIN_TYPES = (pat.is_integer, pat.is_floating, pat.is_boolean, pat.is_null, pat.is_string,
                pat.is_large_string)
@@ -75,6 +81,8 @@ def read_plain(path: Path, head: bytes, where: str, ext: str, declared: Collecti
     sniff.SAMPLE_BYTES + 3 of them), or None when the file is not plain or the result could
     differ from delimited.read_text's. timings: if given, gets the seconds each stage took
     (for the read benchmark)."""
+    if _version(pd.__version__) < PANDAS_FROM:
+        return None
     lap = _Laps(timings)
     off = 3 if head.startswith(b"\xef\xbb\xbf") else 0
     sample = head[off : off + sniff.SAMPLE_BYTES]
@@ -131,6 +139,11 @@ def read_plain(path: Path, head: bytes, where: str, ext: str, declared: Collecti
         cell=lambda pos, j: cell_text(path.read_bytes(), off, delimiter, pos, j),
         notes=[note] if note else [],
     )
+
+
+def _version(text: str) -> tuple[int, ...]:
+    """(major, minor) of a version string such as '3.1.1' or '3.2.0.dev0+12'."""
+    return tuple(int(n) for n in re.findall(r"\d+", text)[:2])
 
 
 class _Laps:

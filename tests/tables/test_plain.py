@@ -264,3 +264,14 @@ def test_numbers_then_words_keep_their_text(tmp_path, numbers_first):
     assert answered is numbers_first
     assert_same(fast, slow)
     assert list(fast.frame["c"].cat.categories) == ["+1", "007", "1.50", "alpha", "beta"]
+
+
+def test_an_older_pandas_is_not_used(big, monkeypatch):
+    """Before pandas 3.1 its default float parser could differ from pyarrow's in the last bit,
+    and it read in one thread: the plain path declines."""
+    path, _ = big
+    head = path.read_bytes()[:70_000]
+    assert plain.read_plain(path, head, "big.csv", ".csv") is not None
+    monkeypatch.setattr(plain, "PANDAS_FROM", (99, 0))
+    assert plain.read_plain(path, head, "big.csv", ".csv") is None
+    assert plain._version("3.2.0.dev0+12") == (3, 2) and plain._version("2.2.3") < (3, 1)
