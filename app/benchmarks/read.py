@@ -8,6 +8,10 @@ float column), then times the three readers on it in turn (default options; the 
 rotates each run) and prints the ratio of read_table's best time to the faster of the other
 two (goal: at most 1.25; read_table also infers kinds and keeps line numbers for messages).
 Timings depend on the machine and on what else runs on it, so the load average is printed too.
+Then the stages of read_table's way for such a file (tables/plain.py), each its best over
+--repeat runs: sniffing the first 64 KB, pandas' parse with the reader's options, the text
+columns' codes, the checks that the result equals the pyarrow reader's, kinds and the Table's
+arrays (build), and line numbers (none to find: row i is line i + 2).
 """
 
 from __future__ import annotations
@@ -22,7 +26,9 @@ import numpy as np
 import pandas as pd
 import pyarrow.csv as pacsv
 
-from rankscope.tables.read import read_table
+from rankscope.tables import plain, sniff
+from rankscope.tables.build import build
+from rankscope.tables.read import PLAIN_FROM, read_table
 
 #: read_table's best time over the faster of pandas.read_csv and pyarrow.csv.read_csv.
 GOAL = 1.25
@@ -85,6 +91,7 @@ def main(argv: list[str] | None = None) -> float:
             for n, t in took.items():
                 best[n] = min(best[n], t)
             print(f"{run:>4}  " + "  ".join(f"{took[n]:>18.3f} s" for n in names))
+        laps = stages(path, args.repeat) if size >= PLAIN_FROM else None
     faster = min(names[1:], key=best.__getitem__)
     ratio = best["read_table"] / best[faster]
     load = ", ".join(f"{x:.1f}" for x in os.getloadavg())
@@ -94,7 +101,34 @@ def main(argv: list[str] | None = None) -> float:
         f"ratio read_table/{faster} (the faster): {ratio:.2f}x (goal: at most {GOAL}x, "
         f"{verdict}; {os.cpu_count()} cores, load average {load})"
     )
+    if laps:
+        total = sum(laps.values())
+        print("stages of read_table (best of each): " + ", ".join(
+            f"{n} {t:.3f} s" for n, t in laps.items()) + f"; sum {total:.3f} s")
+    elif laps is None:
+        print(f"stages: only for files of {PLAIN_FROM / 1e6:.0f} MB or more (smaller ones are "
+              "read by pyarrow)")
+    else:
+        print("stages: the plain-CSV way declined this file (read by pyarrow)")
     return ratio
+
+
+def stages(path: Path, repeat: int) -> dict[str, float]:
+    """Best seconds of each stage of the plain-CSV way over repeat runs ({} if it declines)."""
+    with path.open("rb") as f:
+        head = f.read(sniff.SAMPLE_BYTES + 3)
+    best: dict[str, float] = {}
+    for _ in range(repeat):
+        laps: dict[str, float] = {}
+        raw = plain.read_plain(path, head, str(path), path.suffix, timings=laps)
+        if raw is None:
+            return {}
+        start = time.perf_counter()
+        build(raw)
+        laps["kinds and arrays"] = time.perf_counter() - start
+        laps["line numbers"] = 0.0
+        best = {n: min(t, best.get(n, t)) for n, t in laps.items()}
+    return best
 
 
 if __name__ == "__main__":

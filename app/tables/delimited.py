@@ -67,10 +67,10 @@ def read_text(data: Bytes, where: str, ext: str, declared: Iterable[str] = (),
         data, off = _transcode(data, off, notes)
     delimiter = sniff.sniff_delimiter(text, ext)
     if delimiter is None:
-        first = next(iter(_records(text, ",")), [""])
+        first = next(iter(records(text, ",")), [""])
         raise one_column(where, first[0])
     decimal = sniff.sniff_decimal(text, delimiter)
-    header = next(iter(_records(text, delimiter)), [])
+    header = next(iter(records(text, delimiter)), [])
     # The sample may cut a very long header short: its count is then a lower bound.
     check_columns(len(header), max_columns, where, at_least=not re.search("[\r\n]", text))
     has_quotes = data.find(b'"', off) >= 0  # memchr: a fraction of the parse's time
@@ -91,18 +91,25 @@ def read_text(data: Bytes, where: str, ext: str, declared: Iterable[str] = (),
             index = _line_index(data, off, table.num_rows, delimiter)
     else:
         names, columns, index = _python(data, off, delimiter, where, notes)
-    if delimiter != "," or decimal == ",":
-        mark = " and ',' as the decimal mark" if decimal == "," else ""
-        notes.append(f"Read as {sniff.DELIMITER_NAMES[delimiter]}-separated text{mark}.")
+    if note := dialect_note(delimiter, decimal):
+        notes.append(note)
     return Raw(
         names=list(names),
         columns=list(columns),
         index=index,
         where=where,
         decimal=decimal,
-        cell=lambda pos, j: _cell(data, off, delimiter, pos, j),
+        cell=lambda pos, j: cell_text(data, off, delimiter, pos, j),
         notes=notes,
     )
+
+
+def dialect_note(delimiter: str, decimal: str) -> str | None:
+    """The note on a delimiter other than a comma or a decimal comma (None for neither)."""
+    if delimiter == "," and decimal != ",":
+        return None
+    mark = " and ',' as the decimal mark" if decimal == "," else ""
+    return f"Read as {sniff.DELIMITER_NAMES[delimiter]}-separated text{mark}."
 
 
 def _first_control(sample: bytes, off: int) -> str:
@@ -124,7 +131,7 @@ def _unbom(data: Bytes, notes: list[str], where: str) -> tuple[Bytes, int]:
     elif head.startswith((b"\xff\xfe", b"\xfe\xff")):
         encoding, label = "utf-16", "UTF-16"
     else:
-        encoding = _utf16_without_bom(data[: sniff.SAMPLE_BYTES])
+        encoding = utf16_without_bom(data[: sniff.SAMPLE_BYTES])
         if encoding is None:
             return data, 0
         label = "UTF-16 (without a byte order mark)"
@@ -140,7 +147,7 @@ def _unbom(data: Bytes, notes: list[str], where: str) -> tuple[Bytes, int]:
     return text.lstrip("\ufeff").encode("utf-8"), 0
 
 
-def _utf16_without_bom(sample: bytes) -> str | None:
+def utf16_without_bom(sample: bytes) -> str | None:
     """'utf-16-le' or 'utf-16-be' for mostly-ASCII UTF-16 text without a byte order mark
     (every other byte NUL), else None."""
     sample = sample[: len(sample) // 2 * 2]
@@ -201,17 +208,7 @@ def _arrow(data, off, delimiter, decimal, header, declared,
             newlines_in_values=has_quotes,
             ignore_empty_lines=not one_line_rows,
         )
-        convert = pacsv.ConvertOptions(
-            null_values=list(MISSING_MARKERS),
-            true_values=["true", "True", "TRUE"],
-            false_values=["false", "False", "FALSE"],
-            strings_can_be_null=True,
-            quoted_strings_can_be_null=True,
-            decimal_point=decimal,
-            column_types=types,
-            auto_dict_encode=True,
-            auto_dict_max_cardinality=DICT_LEVELS,
-        )
+        convert = convert_options(decimal, types)
         try:
             table = pacsv.read_csv(
                 pa.BufferReader(pa.py_buffer(data).slice(off)),
@@ -239,6 +236,24 @@ def _arrow(data, off, delimiter, decimal, header, declared,
     return None, False
 
 
+def convert_options(decimal: str, types: dict[str, pa.DataType] | None = None,
+                    dictionaries: bool = True) -> pacsv.ConvertOptions:
+    """How pyarrow turns a CSV's cells into values: the missing markers, true/false words and
+    decimal mark of docs/reading.md; text dictionary-encoded in each parse block when it has
+    few distinct values (dictionaries)."""
+    return pacsv.ConvertOptions(
+        null_values=list(MISSING_MARKERS),
+        true_values=["true", "True", "TRUE"],
+        false_values=["false", "False", "FALSE"],
+        strings_can_be_null=True,
+        quoted_strings_can_be_null=True,
+        decimal_point=decimal,
+        column_types=types or {},
+        auto_dict_encode=dictionaries,
+        auto_dict_max_cardinality=DICT_LEVELS,
+    )
+
+
 def _values(t: pa.DataType) -> pa.DataType:
     return t.value_type if pat.is_dictionary(t) else t
 
@@ -253,7 +268,7 @@ def _has_empty_rows(table: pa.Table) -> bool:
     return empty is not None
 
 
-def _records(text: str, delimiter: str) -> Iterator[list[str]]:
+def records(text: str, delimiter: str) -> Iterator[list[str]]:
     reader = csv.reader(io.StringIO(text, newline=""), delimiter=delimiter, quotechar='"')
     try:
         for rec in reader:
@@ -398,7 +413,7 @@ def ragged(where: str, line: int, expected: int, rec: list[str], delimiter: str)
     )
 
 
-def _cell(data: Bytes, off: int, delimiter: str, pos: int, j: int) -> str | None:
+def cell_text(data: Bytes, off: int, delimiter: str, pos: int, j: int) -> str | None:
     """The text of data row pos, column j, as written in the file (for messages)."""
     for k, (_, rec) in enumerate(_scan(data, off, delimiter)):
         if k == pos + 1:

@@ -18,11 +18,16 @@ from rankscope.tables.build import build
 from rankscope.tables.errors import InputError
 from rankscope.tables.kinds import with_kinds
 from rankscope.tables.limits import check_cells, check_columns, check_rows, check_unpacked
+from rankscope.tables.raw import Raw
 from rankscope.tables.table import Table
 
 MAX_BYTES = 2_000_000_000
 #: Files from this size on are read into huge pages (see _load).
 BIG_FILE = 8_000_000
+#: Text files from this size on are offered to plain.read_plain first: pandas shares a file of
+#: at least 5 MiB out among threads (its _PARALLEL_READ_MIN_BYTES); below that pyarrow's
+#: threaded reader is as fast, and the file's bytes are needed anyway.
+PLAIN_FROM = 8_000_000
 UNSUPPORTED_EXTS = {
     ".json": "JSON", ".xml": "XML", ".html": "HTML", ".htm": "HTML", ".ods": "OpenDocument",
     ".dta": "Stata", ".sav": "SPSS", ".rds": "R", ".rdata": "R", ".sas7bdat": "SAS",
@@ -60,11 +65,15 @@ def read_table(
             raise InputError("This is a folder, not a file", where, "Choose a file")
         _check_size(size, max_bytes, where)
         with p.open("rb") as f:
-            head = f.read(16)
-        if sniff.content_kind(head) == "parquet":
+            head = f.read(sniff.SAMPLE_BYTES + 3)
+        if sniff.content_kind(head[:16]) == "parquet":
             # Arrow reads a Parquet file from the disk itself: no copy of its bytes in memory.
-            return _read(head, p.name, where, sheet, max_bytes, kinds, (max_rows, max_columns),
-                         parquet_file=p)
+            return _read(head[:16], p.name, where, sheet, max_bytes, kinds,
+                         (max_rows, max_columns), parquet_file=p)
+        if size >= PLAIN_FROM:
+            table = _read_plain(p, head, where, sheet, kinds, (max_rows, max_columns))
+            if table is not None:
+                return table
         data = _load(p, size)
     except FileNotFoundError:
         raise InputError(
@@ -153,7 +162,6 @@ def _read(data: bytes | mmap.mmap, filename: str, where: str, sheet, max_bytes: 
     elif gz:
         notes.append("The file name ends in .gz but the content is not compressed.")
     fmt = _format(data, kind, ext, where)
-    max_rows, max_columns = shape
     # Each format's reader loads with its first file (openpyxl alone costs a small check
     # a quarter of its time).
     if fmt == "excel":
@@ -167,10 +175,34 @@ def _read(data: bytes | mmap.mmap, filename: str, where: str, sheet, max_bytes: 
     else:
         from rankscope.tables.delimited import read_text
 
-        raw = read_text(data, where, ext, declared=(kinds or {}).keys(), max_columns=max_columns)
+        raw = read_text(data, where, ext, declared=(kinds or {}).keys(), max_columns=shape[1])
+    return _finish(raw, fmt, ext, sheet, kinds, shape, notes)
+
+
+def _read_plain(p: Path, head: bytes, where: str, sheet, kinds,
+                shape: tuple[int | None, int | None]) -> Table | None:
+    """The Table of a big plain CSV file through plain.read_plain, without the file's bytes in
+    memory; None when that reader declines (the caller reads the file the usual way)."""
+    ext, gz = sniff.suffixes(p.name)
+    if gz or sniff.content_kind(head[:16]) is not None:
+        return None
+    fmt = _format(head, None, ext, where)  # the first bytes are all it looks at for text
+    if fmt != "text":
+        return None
+    from rankscope.tables.plain import read_plain
+
+    raw = read_plain(p, head, where, ext, declared=(kinds or {}).keys(), max_columns=shape[1])
+    return None if raw is None else _finish(raw, fmt, ext, sheet, kinds, shape)
+
+
+def _finish(raw: Raw, fmt: str, ext: str, sheet, kinds, shape: tuple[int | None, int | None],
+            notes: list[str] | None = None) -> Table:
+    """Limits, notes on the format (after those given), and the Table with its kinds."""
+    max_rows, max_columns = shape
     check_columns(len(raw.names), max_columns, raw.where)
     check_rows(raw.n_rows, max_rows, raw.where)
     check_cells(raw)
+    notes = list(notes or [])
     if fmt != "excel" and sheet is not None:
         notes.append("A sheet was chosen, but only Excel workbooks have sheets; it was ignored.")
     expected = {"excel": sniff.EXCEL_EXTS, "parquet": sniff.PARQUET_EXTS}.get(fmt)

@@ -31,6 +31,7 @@ def test_read_benchmark_smoke() -> None:
     out = _run("rankscope.benchmarks.read", "--mb", "0.5", "--repeat", "1")
     assert "read_table" in out and "pandas.read_csv" in out and "pyarrow.csv.read_csv" in out
     assert "ratio read_table/" in out and "(the faster)" in out
+    assert "stages: only for files of 8 MB or more" in out
 
 
 def test_refit_benchmark_smoke() -> None:
