@@ -8,13 +8,12 @@ from __future__ import annotations
 import re
 from pathlib import Path
 
-import pandas as pd
 import pyarrow as pa
 import pyarrow.parquet as pq
 
 from rankscope.tables.errors import InputError
 from rankscope.tables.limits import check_columns, check_rows
-from rankscope.tables.raw import Raw
+from rankscope.tables.raw import Raw, RowNumbers
 
 PANDAS_INDEX = re.compile(r"^__index_level_\d+__$")
 
@@ -67,5 +66,5 @@ def read_parquet(data: bytes | Path, where: str,
         notes.append("A pandas index stored in the file was left out.")
     names = [all_names[i] for i in keep]
     columns = [table.column(i) for i in keep]
-    index = pd.RangeIndex(1, table.num_rows + 1, name="record")
+    index = RowNumbers(range(1, table.num_rows + 1), "record")
     return Raw(names=names, columns=columns, index=index, where=where, typed=True, notes=notes)
