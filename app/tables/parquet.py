@@ -53,10 +53,13 @@ def read_parquet(data: bytes | Path, where: str,
         )
     try:
         source = pa.memory_map(str(data)) if isinstance(data, Path) else pa.BufferReader(data)
-        meta = pq.ParquetFile(source).metadata
+        file = pq.ParquetFile(source)
+        meta = file.metadata
         check_columns(meta.num_columns, shape[1], where)
         check_rows(meta.num_rows, shape[0], where)
-        table = pq.read_table(source)
+        # The file's own reader: pq.read_table goes through pyarrow.dataset, which imports
+        # pandas (a quarter of a second of a small `check`) for the same table.
+        table = file.read()
     except (pa.ArrowException, OSError, ValueError) as e:
         raise unreadable(e, where) from None
     notes = []
