@@ -9,9 +9,10 @@ temporary folder, then times in fresh interpreters, alternately: `python -m rank
 FILE --response y` (the terminal report, and the same with --json), and the baseline, which
 reads the same file with pyarrow (pyarrow.csv or pyarrow.parquet), stacks the matrix with a
 constant column and solves it with numpy.linalg.lstsq. The best wall time of each is kept. The
-import row sums Python's -X importtime over every module `check` loads, beside the same sum
-for the baseline; the goal is on what the command imports beyond the baseline's numpy and
-pyarrow. Timings depend on the machine and its load (printed).
+import row sums Python's -X importtime over the modules `check` loads and the baseline does
+not (the goal: what the command imports beyond the baseline's numpy and pyarrow), beside the
+totals of both; the baseline's include pandas, which pyarrow's to_numpy imports. Timings
+depend on the machine and its load (printed).
 """
 
 from __future__ import annotations
@@ -106,16 +107,17 @@ def wall(cmd: list[str]) -> float:
     return took
 
 
-def import_seconds(cmd: list[str]) -> float:
-    """The sum of -X importtime's own times over every module the process imports."""
+def import_seconds(cmd: list[str]) -> dict[str, float]:
+    """-X importtime's own time (seconds) of each module the process imports."""
     done = subprocess.run([sys.executable, "-X", "importtime", *cmd], stdout=subprocess.DEVNULL,
                           stderr=subprocess.PIPE, text=True)
-    total = 0
+    own: dict[str, float] = {}
     for line in done.stderr.splitlines():
         head, _, rest = line.partition("|")
         if line.startswith("import time:") and rest and head.split(":")[1].strip().isdigit():
-            total += int(head.split(":")[1])
-    return total / 1e6
+            name = rest.partition("|")[2].strip()
+            own[name] = own.get(name, 0.0) + int(head.split(":")[1]) / 1e6
+    return own
 
 
 def _verdict(ratio: float, goal: float) -> str:
@@ -140,12 +142,22 @@ def case_rows(label: str, path: Path, goal: float, repeats: int) -> list[Row]:
     return rows
 
 
-def import_row(path: Path) -> Row:
-    ours = import_seconds(["-m", "rankscope", "check", str(path), "--response", "y"])
-    theirs = import_seconds(["-c", BASELINE, str(path)])
-    extra = ours - theirs
+def import_row(path: Path, repeats: int = 1) -> Row:
+    """The own times of the modules `check` imports that the baseline does not, best of
+    `repeats`. A module-by-module difference, not a difference of totals: the baseline also
+    loads pandas (pyarrow's to_numpy imports it), which must not pay for the command's
+    imports."""
+    best = None
+    for _ in range(repeats):
+        ours = import_seconds(["-m", "rankscope", "check", str(path), "--response", "y"])
+        theirs = import_seconds(["-c", BASELINE, str(path)])
+        extra = sum(t for name, t in ours.items() if name not in theirs)
+        if best is None or extra < best[0]:
+            best = (extra, sum(ours.values()), sum(theirs.values()))
+    assert best is not None
+    extra, all_ours, all_theirs = best
     return Row("imports of `check` beyond the baseline's (numpy, pyarrow)",
-               f"{extra:.2f} s ({ours:.2f} s all, baseline {theirs:.2f} s)",
+               f"{extra:.2f} s ({all_ours:.2f} s all, baseline {all_theirs:.2f} s)",
                f"≤ {IMPORT_SECONDS} s", "met" if extra <= IMPORT_SECONDS else "MISSED")
 
 
@@ -175,7 +187,7 @@ def main(argv: list[str] | None = None) -> int:
             path = write_table(Path(tmp), n, p, fmt, dependent=dependent)
             rows += case_rows(label, path, goal, repeats)
             if fmt == "csv":
-                rows.append(import_row(path))
+                rows.append(import_row(path, repeats))
     load = ", ".join(f"{x:.1f}" for x in os.getloadavg())
     print(f"mode: {mode}, best of {repeats} fresh processes each; {os.cpu_count()} cores, "
           f"load average {load}")
