@@ -85,6 +85,14 @@ def _table_values(series: pd.Series, kind: str) -> np.ndarray:
     return pd.to_datetime(series).to_numpy(dtype="datetime64[ns]")
 
 
+def _read_only(values: np.ndarray) -> np.ndarray:
+    """A read-only view: what pandas gives for every row of a column (no copy; steps make
+    new arrays and never write into the table's)."""
+    view = values.view()
+    view.flags.writeable = False
+    return view
+
+
 @dataclass
 class WorkingColumns:
     """Working columns plus the recipe-wide settings, for the rows `rows` of a table.
@@ -106,6 +114,7 @@ class WorkingColumns:
     @classmethod
     def from_table(cls, table: Table, rows: np.ndarray, strict: bool) -> WorkingColumns:
         cols = []
+        every_row = len(rows) == table.n_rows and np.array_equal(rows, np.arange(len(rows)))
         for name in table.columns:
             kind = table.kinds.get(name)
             if kind not in KINDS:
@@ -116,7 +125,7 @@ class WorkingColumns:
                 )
             numbers = table.numbers(name)
             if numbers is not None:  # float64 with NaN: what _table_values gives, no pandas
-                values = numbers[rows]
+                values = _read_only(numbers) if every_row else numbers[rows]
             else:
                 values = _table_values(table.frame[name].iloc[rows], kind)
             cols.append(Col(str(name), kind, values, frozenset([str(name)])))

@@ -5,6 +5,7 @@ Holds data only; reading lives in the per-format reader modules.
 
 from __future__ import annotations
 
+import threading
 from typing import TYPE_CHECKING
 
 import numpy as np
@@ -15,6 +16,8 @@ if TYPE_CHECKING:
     from rankscope.tables.raw import RowNumbers
 
 KINDS = ("numeric", "categorical", "boolean", "date")
+#: Held while a frame is built from arrays: the server's threads share tables.
+_BUILDING = threading.Lock()
 
 
 class Table:
@@ -35,12 +38,13 @@ class Table:
     only reads the numbers never imports pandas (a quarter of a second of a small `check`).
     """
 
-    def __init__(self, frame: pd.DataFrame | None = None, kinds: dict[str, str] | None = None,
+    def __init__(self, frame: pd.DataFrame | None, kinds: dict[str, str],
                  source: str = "<table>", notes: list[str] | None = None) -> None:
         self._frame = frame
-        self._numbers: dict[str, np.ndarray] = {}
-        self._rows: RowNumbers | None = None
-        self.kinds = kinds if kinds is not None else {}
+        # (arrays, row numbers) until the frame is built; one attribute, so a thread reading
+        # it sees either the arrays or (set before they are let go) the frame.
+        self._lazy: tuple[dict[str, np.ndarray], RowNumbers] | None = None
+        self.kinds = kinds
         self.source = source
         self.notes = notes if notes is not None else []
 
@@ -49,7 +53,7 @@ class Table:
                    notes: list[str]) -> Table:
         """A table of numeric columns (float64 arrays, NaN = missing) without a frame yet."""
         table = cls(None, dict.fromkeys(numbers, "numeric"), source, notes)
-        table._numbers, table._rows = numbers, rows
+        table._lazy = (numbers, rows)
         return table
 
     @property
@@ -57,25 +61,29 @@ class Table:
         if self._frame is None:
             import pandas as pd
 
-            assert self._rows is not None
-            self._frame = pd.DataFrame(self._numbers, index=self._rows.to_pandas(), copy=False)
-            self._numbers, self._rows = {}, None  # from now on the frame is the one copy
+            with _BUILDING:
+                if self._frame is None and self._lazy is not None:
+                    numbers, rows = self._lazy
+                    self._frame = pd.DataFrame(numbers, index=rows.to_pandas(), copy=False)
+                    self._lazy = None  # the frame (sharing the arrays) is now the one copy
+        assert self._frame is not None
         return self._frame
 
     @property
     def columns(self) -> list[str]:
-        return list(self._numbers) if self._frame is None else list(self._frame.columns)
+        lazy = self._lazy
+        return list(lazy[0]) if lazy is not None else list(self.frame.columns)
 
     @property
     def n_rows(self) -> int:
-        if self._frame is None:
-            return len(self._rows) if self._rows is not None else 0
-        return int(len(self._frame))
+        lazy = self._lazy
+        return len(lazy[1]) if lazy is not None else int(len(self.frame))
 
     def numbers(self, name: str) -> np.ndarray | None:
         """The float64 values of a numeric column while the table has no frame, else None
         (then read the frame)."""
-        return self._numbers.get(name) if self._frame is None else None
+        lazy = self._lazy
+        return lazy[0].get(name) if lazy is not None else None
 
     def missing(self, name: str) -> np.ndarray:
         """Whether each row of the column is missing (bool array)."""
