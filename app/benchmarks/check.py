@@ -8,7 +8,10 @@ dependencies" adds an exact dependency and four near pairs, so remedies are prev
 temporary folder, then times in fresh interpreters, alternately: `python -m rankscope check
 FILE --response y` (the terminal report, and the same with --json), and the baseline, which
 reads the same file with pyarrow (pyarrow.csv or pyarrow.parquet), stacks the matrix with a
-constant column and solves it with numpy.linalg.lstsq. The best wall time of each is kept. The
+constant column and solves it with numpy.linalg.lstsq. Every process reads its bytecode from
+a folder of the run's own, written by one untimed run of each beforehand, as an installed
+package has it (PYTHONDONTWRITEBYTECODE would otherwise have an editable install compile the
+command's modules in every run). The best wall time of each is kept. The
 import row sums Python's -X importtime over the modules `check` loads and the baseline does
 not (the goal: what the command imports beyond the baseline's numpy and pyarrow), beside the
 totals of both; the baseline's include pandas, which pyarrow's to_numpy imports. Timings
@@ -97,10 +100,26 @@ def write_table(folder: Path, n: int, p: int, fmt: str, seed: int = 0,
     return path
 
 
+#: The environment of the timed processes (set by main): bytecode cached in a folder of the
+#: run's own, as a user's installed rankscope has it. Without it, where PYTHONDONTWRITEBYTECODE
+#: is set (or the package folder is not writable), an editable install compiles every module
+#: of the command again in each process (about 0.08 s of a small `check`), while the
+#: baseline's packages come with their bytecode.
+ENV: dict[str, str] | None = None
+
+
+def cached_bytecode(folder: Path) -> dict[str, str]:
+    """os.environ with Python's bytecode written to and read from `folder`."""
+    env = {k: v for k, v in os.environ.items() if k != "PYTHONDONTWRITEBYTECODE"}
+    env["PYTHONPYCACHEPREFIX"] = str(folder)
+    return env
+
+
 def wall(cmd: list[str]) -> float:
     """Wall time of one fresh process (its output thrown away); raises when it fails."""
     start = time.perf_counter()
-    done = subprocess.run(cmd, stdout=subprocess.DEVNULL, stderr=subprocess.PIPE, text=True)
+    done = subprocess.run(cmd, stdout=subprocess.DEVNULL, stderr=subprocess.PIPE, text=True,
+                          env=ENV)
     took = time.perf_counter() - start
     if done.returncode != 0:
         raise RuntimeError(f"{' '.join(cmd)} failed: {done.stderr.strip()[-500:]}")
@@ -110,7 +129,7 @@ def wall(cmd: list[str]) -> float:
 def import_seconds(cmd: list[str]) -> dict[str, float]:
     """-X importtime's own time (seconds) of each module the process imports."""
     done = subprocess.run([sys.executable, "-X", "importtime", *cmd], stdout=subprocess.DEVNULL,
-                          stderr=subprocess.PIPE, text=True)
+                          stderr=subprocess.PIPE, text=True, env=ENV)
     own: dict[str, float] = {}
     for line in done.stderr.splitlines():
         head, _, rest = line.partition("|")
@@ -124,10 +143,23 @@ def _verdict(ratio: float, goal: float) -> str:
     return "met" if ratio <= goal else "MISSED"
 
 
-def case_rows(label: str, path: Path, goal: float, repeats: int) -> list[Row]:
+def commands(path: Path) -> dict[str, list[str]]:
+    """The timed processes on one file."""
     check = [sys.executable, "-m", "rankscope", "check", str(path), "--response", "y"]
-    runs = {"check": check, "check --json": [*check, "--json"],
+    return {"check": check, "check --json": [*check, "--json"],
             "baseline": [sys.executable, "-c", BASELINE, str(path)]}
+
+
+def warm_up(folder: Path, formats: set[str]) -> None:
+    """One untimed run of each process on a small table of each format: writes the bytecode
+    of what they import (the later runs read it)."""
+    for fmt in sorted(formats):
+        for cmd in commands(write_table(folder, 200, 6, fmt)).values():
+            wall(cmd)
+
+
+def case_rows(label: str, path: Path, goal: float, repeats: int) -> list[Row]:
+    runs = commands(path)
     best = dict.fromkeys(runs, float("inf"))
     for r in range(repeats):
         order = list(runs) if r % 2 == 0 else list(reversed(runs))  # alternate who goes first
@@ -182,15 +214,18 @@ def main(argv: list[str] | None = None) -> int:
     mode = "quick" if args.quick else "full"
     repeats = args.repeat or REPEATS[mode]
     rows: list[Row] = []
+    global ENV
     with tempfile.TemporaryDirectory() as tmp:
+        ENV = cached_bytecode(Path(tmp) / "bytecode")
+        warm_up(Path(tmp), {case[3] for case in CASES[mode]})
         for label, n, p, fmt, goal, dependent in CASES[mode]:
             path = write_table(Path(tmp), n, p, fmt, dependent=dependent)
             rows += case_rows(label, path, goal, repeats)
             if fmt == "csv":
                 rows.append(import_row(path, repeats))
     load = ", ".join(f"{x:.1f}" for x in os.getloadavg())
-    print(f"mode: {mode}, best of {repeats} fresh processes each; {os.cpu_count()} cores, "
-          f"load average {load}")
+    print(f"mode: {mode}, best of {repeats} fresh processes each (bytecode cached); "
+          f"{os.cpu_count()} cores, load average {load}")
     print(render(rows))
     missed = sum(r.verdict == "MISSED" for r in rows)
     print(f"{missed} goal(s) MISSED" if missed else "every goal met")
