@@ -46,6 +46,9 @@ CASES = {
 REPEATS = {"full": 3, "quick": 1}
 #: Seconds the command's own imports may take beyond the baseline's (numpy, pyarrow).
 IMPORT_SECONDS = 0.3
+#: The fewest runs the import row takes its best of: a sum of 300 small timings, it moves
+#: with the machine's load far more than one process's wall time, and a run costs a second.
+IMPORT_REPEATS = 5
 
 #: The baseline, run as `python -c BASELINE FILE`: read with pyarrow, least squares by numpy.
 BASELINE = """\
@@ -222,7 +225,7 @@ def main(argv: list[str] | None = None) -> int:
             path = write_table(Path(tmp), n, p, fmt, dependent=dependent)
             rows += case_rows(label, path, goal, repeats)
             if fmt == "csv":
-                rows.append(import_row(path, repeats))
+                rows.append(import_row(path, max(repeats, IMPORT_REPEATS)))
     load = ", ".join(f"{x:.1f}" for x in os.getloadavg())
     print(f"mode: {mode}, best of {repeats} fresh processes each (bytecode cached); "
           f"{os.cpu_count()} cores, load average {load}")

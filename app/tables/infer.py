@@ -102,6 +102,8 @@ def float_values(arr: pa.ChunkedArray) -> np.ndarray:
     parts, missing = [], []
     for chunk in arr.chunks:
         n, off = len(chunk), chunk.offset
+        if not n:
+            continue  # an empty chunk may have no values buffer at all
         validity, data = chunk.buffers()
         parts.append(np.frombuffer(data, np.float64, count=off + n)[off:])
         if chunk.null_count:

@@ -7,6 +7,8 @@ pandas.unique, pandas.read_csv (values and line numbers of the same file).
 
 from __future__ import annotations
 
+import threading
+
 import numpy as np
 import pandas as pd
 import pyarrow as pa
@@ -73,3 +75,29 @@ def test_a_numeric_file_builds_its_frame_only_when_asked(tmp_path) -> None:
     assert frame.index.name == "line" and list(frame.index) == lines_seen
     assert table.numbers("a") is None  # the frame is now the one copy
     assert table.missing("a").tolist() == frame["a"].isna().tolist()
+
+
+def test_threads_asking_at_once_share_one_frame(tmp_path) -> None:
+    """The server's threads share tables: each sees the columns, the row count and the one
+    frame, whichever thread builds it."""
+    path = tmp_path / "numbers.csv"
+    rng = np.random.default_rng(2)
+    lines = ["a,b,y", *(",".join(repr(float(v)) for v in row)
+                        for row in rng.standard_normal((50, 3)))]
+    path.write_text("\n".join(lines) + "\n", encoding="utf-8")
+    for _ in range(20):
+        table = read_table(path)
+        start = threading.Barrier(6)
+        seen: list[tuple[list[str], int, int]] = []
+
+        def ask(table=table, start=start, seen=seen) -> None:
+            start.wait()
+            seen.append((table.columns, table.n_rows, id(table.frame)))
+
+        threads = [threading.Thread(target=ask) for _ in range(6)]
+        for t in threads:
+            t.start()
+        for t in threads:
+            t.join()
+        assert {(tuple(c), n) for c, n, _ in seen} == {(("a", "b", "y"), 50)}
+        assert len({f for _, _, f in seen}) == 1
