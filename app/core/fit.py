@@ -7,7 +7,6 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
-from scipy import special
 from scipy.linalg import qr, solve_triangular
 
 from rankscope.core.basis import Basis, basis_factor
@@ -156,6 +155,10 @@ def fit_least_squares(F: Factorization, basis: Basis, relations: list[Relation],
     Standard errors: s·||row j of R11⁻¹|| / scale_j (Seber & Lee, Linear Regression
     Analysis, 2nd ed., §11.4); s² = RSS/(n − k).
     """
+    # The t and F tails' module loads with the first fit: a check without a response never
+    # needs it (scipy.special's import is about a tenth of a small `check`).
+    from scipy import special
+
     names = F.columns
     B = basis.basis
     k = len(B)

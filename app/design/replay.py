@@ -91,7 +91,7 @@ def trace_design(table: Table, steps: Sequence[dict[str, Any]]) -> Trace:
     n = table.n_rows
     if n == 0:
         raise InputError("the table has no rows", table.source, "Check the file")
-    missing = {str(c): np.asarray(table.frame[c].isna(), dtype=bool) for c in table.columns}
+    missing = {str(c): table.missing(c) for c in table.columns}
     order = [str(c) for c in table.columns]
     working = run_steps(table, steps, np.arange(n), strict=True)
     plan = make_plan(working, missing, order)

@@ -6,14 +6,17 @@ Holds state and lookups only; what each step does lives in the apply_* modules.
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from typing import TYPE_CHECKING
 
 import numpy as np
-import pandas as pd
 
 from rankscope.design.design import INTERCEPT
 from rankscope.design.names import file_row, quoted, suggestion
 from rankscope.tables.errors import InputError
 from rankscope.tables.table import KINDS, Table
+
+if TYPE_CHECKING:
+    import pandas as pd
 
 PREDICTOR = "predictor"
 DROPPED = "dropped"
@@ -46,7 +49,19 @@ class Col:
     problem: str | None = None
 
     def missing(self) -> np.ndarray:
-        return np.asarray(pd.isna(self.values), dtype=bool)
+        return is_missing(self.values)
+
+
+def is_missing(values: np.ndarray) -> np.ndarray:
+    """pandas.isna of a column's values (NaN, NaT, None), with numpy alone for numbers and
+    dates: pandas loads only for object columns."""
+    if isinstance(values, np.ndarray) and values.dtype.kind == "f":
+        return np.isnan(values)
+    if isinstance(values, np.ndarray) and values.dtype.kind == "M":
+        return np.isnat(values)
+    import pandas as pd
+
+    return np.asarray(pd.isna(values), dtype=bool)
 
 
 def derived(name: str, kind: str, values: np.ndarray, parents: tuple[Col, ...]) -> Col:
@@ -57,6 +72,8 @@ def derived(name: str, kind: str, values: np.ndarray, parents: tuple[Col, ...]) 
 
 
 def _table_values(series: pd.Series, kind: str) -> np.ndarray:
+    import pandas as pd
+
     if kind in ("numeric", "boolean"):
         return series.to_numpy(dtype=float, na_value=np.nan)
     if kind == "categorical":
@@ -66,6 +83,14 @@ def _table_values(series: pd.Series, kind: str) -> np.ndarray:
         values[gone] = None
         return values
     return pd.to_datetime(series).to_numpy(dtype="datetime64[ns]")
+
+
+def _read_only(values: np.ndarray) -> np.ndarray:
+    """A read-only view: what pandas gives for every row of a column (no copy; steps make
+    new arrays and never write into the table's)."""
+    view = values.view()
+    view.flags.writeable = False
+    return view
 
 
 @dataclass
@@ -89,6 +114,7 @@ class WorkingColumns:
     @classmethod
     def from_table(cls, table: Table, rows: np.ndarray, strict: bool) -> WorkingColumns:
         cols = []
+        every_row = len(rows) == table.n_rows and np.array_equal(rows, np.arange(len(rows)))
         for name in table.columns:
             kind = table.kinds.get(name)
             if kind not in KINDS:
@@ -97,7 +123,11 @@ class WorkingColumns:
                     table.source,
                     f"Give it one of: {', '.join(KINDS)}",
                 )
-            values = _table_values(table.frame[name].iloc[rows], kind)
+            numbers = table.numbers(name)
+            if numbers is not None:  # float64 with NaN: what _table_values gives, no pandas
+                values = _read_only(numbers) if every_row else numbers[rows]
+            else:
+                values = _table_values(table.frame[name].iloc[rows], kind)
             cols.append(Col(str(name), kind, values, frozenset([str(name)])))
         return cls(cols, np.asarray(rows, dtype=int), table.source, strict=strict)
 

@@ -8,12 +8,11 @@ from __future__ import annotations
 from collections import Counter
 
 import numpy as np
-import pandas as pd
 
 from rankscope.tables.errors import InputError
 from rankscope.tables.infer import infer_column
 from rankscope.tables.kinds import check_overrides, number_text
-from rankscope.tables.raw import Raw, short
+from rankscope.tables.raw import Raw, RowNumbers, pandas_index, short
 from rankscope.tables.table import Table
 
 
@@ -51,8 +50,19 @@ def build(raw: Raw, declared: dict[str, str] | None = None) -> Table:
         notes.extend(_facts(name, values, kind))
     if len(data) < 2:
         raise one_column(raw.where, next(iter(data), ""))
-    frame = pd.DataFrame(data, index=raw.index, copy=False)
-    return Table(frame=frame, kinds=kinds, source=raw.where, notes=raw.notes + notes)
+    notes = raw.notes + notes
+    if isinstance(raw.index, RowNumbers) and all(
+            kinds[c] == "numeric" and _plain(v) for c, v in data.items()):
+        return Table.of_numbers(data, raw.index, raw.where, notes)
+    import pandas as pd
+
+    frame = pd.DataFrame(data, index=pandas_index(raw.index), copy=False)
+    return Table(frame=frame, kinds=kinds, source=raw.where, notes=notes)
+
+
+def _plain(values) -> bool:
+    """A numeric column held as a float64 array (all a Table needs no frame for)."""
+    return isinstance(values, np.ndarray) and values.dtype == np.float64 and values.ndim == 1
 
 
 def _check_header(raw: Raw) -> tuple[list[str], list[int]]:
@@ -115,6 +125,8 @@ def _facts(name: str, values, kind: str) -> list[str]:
         truth = values.to_numpy(dtype=bool, na_value=False)
         used = [v for v in (False, True) if (present & (truth == v)).any()]
     else:
+        import pandas as pd
+
         used = pd.Series(values).dropna().unique()
     if len(used) == 0:
         return [_empty(name)]
@@ -131,10 +143,17 @@ def _whole_levels(v: np.ndarray, most: int = 10, prefix: int = 4096) -> np.ndarr
         present = part[~np.isnan(part)]
         if not (present == np.floor(present)).all():
             return None
-        levels = pd.unique(present)
+        levels = _unique(present)
         if len(levels) > most:
             return None
     return levels
+
+
+def _unique(values: np.ndarray) -> np.ndarray:
+    """The distinct values in the order they first occur (what pandas.unique gives): np.unique
+    with the index of each first occurrence (its sort is stable then), put back in that order."""
+    _, first = np.unique(values, return_index=True)
+    return values[np.sort(first)]
 
 
 def _empty(name: str) -> str:

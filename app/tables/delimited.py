@@ -17,7 +17,6 @@ import re
 from collections.abc import Iterable, Iterator
 
 import numpy as np
-import pandas as pd
 import pyarrow as pa
 import pyarrow.compute as pc
 import pyarrow.csv as pacsv
@@ -27,7 +26,7 @@ from rankscope.tables import sniff
 from rankscope.tables.build import one_column
 from rankscope.tables.errors import InputError
 from rankscope.tables.limits import check_columns
-from rankscope.tables.raw import Raw
+from rankscope.tables.raw import Raw, RowNumbers
 from rankscope.tables.text import MISSING_MARKERS
 
 csv.field_size_limit(max(csv.field_size_limit(), 1 << 26))
@@ -86,7 +85,7 @@ def read_text(data: Bytes, where: str, ext: str, declared: Iterable[str] = (),
     if table is not None:
         names, columns = table.column_names, table.columns
         if one_line_rows:
-            index = pd.RangeIndex(2, table.num_rows + 2, name="line")
+            index = RowNumbers(range(2, table.num_rows + 2), "line")
         else:
             index = _line_index(data, off, table.num_rows, delimiter)
     else:
@@ -289,7 +288,7 @@ def _scan(data: Bytes, off: int, delimiter: str) -> Iterator[tuple[int, list[str
             yield start, rec
 
 
-def _line_index(data: Bytes, off: int, n_rows: int, delimiter: str) -> pd.Index:
+def _line_index(data: Bytes, off: int, n_rows: int, delimiter: str) -> RowNumbers:
     """Editor line of each data row: 2 + i when the file has one line per row; when blank lines
     or quoted newlines make more lines than rows, the lines are found from where the quotes
     and line ends are (_line_starts), or by Python's csv module when quotes sit inside fields."""
@@ -300,15 +299,15 @@ def _line_index(data: Bytes, off: int, n_rows: int, delimiter: str) -> pd.Index:
     if not (has_cr and has_lf):  # one kind of line end (\r\n files take the longer way)
         lines = _count(data, b"\r" if has_cr else b"\n", off, end) + 1
         if lines == n_rows + 1 and data[off : off + 1] not in (b"\r", b"\n"):
-            return pd.RangeIndex(2, n_rows + 2, name="line")
+            return RowNumbers(range(2, n_rows + 2), "line")
     found = _line_starts(data, off, delimiter)
     if found is None:
         starts = np.array([start for start, _ in _scan(data, off, delimiter)][1:], np.int64)
     else:
         starts = found[1:]
     if len(starts) != n_rows:  # the two parsers disagree; fall back to plain numbering
-        return pd.RangeIndex(2, n_rows + 2, name="line")
-    return pd.Index(starts, dtype="int64", name="line")
+        return RowNumbers(range(2, n_rows + 2), "line")
+    return RowNumbers(np.asarray(starts, dtype=np.int64), "line")
 
 
 def _line_starts(data: Bytes, off: int, delimiter: str,
@@ -393,7 +392,7 @@ def _python(data: Bytes, off: int, delimiter: str, where: str, notes: list[str])
     if forgiven:
         notes.append("Every row ends with an extra delimiter; the empty last field was ignored.")
     arrays = [pa.chunked_array([pa.array(col, pa.string())]) for col in columns]
-    return names, arrays, pd.Index(lines, dtype="int64", name="line")
+    return names, arrays, RowNumbers(np.asarray(lines, dtype=np.int64), "line")
 
 
 def ragged(where: str, line: int, expected: int, rec: list[str], delimiter: str) -> InputError:

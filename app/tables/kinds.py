@@ -11,13 +11,17 @@ booleans cannot become dates, and dates cannot become numbers or booleans.
 
 from __future__ import annotations
 
+from typing import TYPE_CHECKING
+
 import numpy as np
-import pandas as pd
 
 from rankscope.tables.errors import InputError
 from rankscope.tables.raw import at, row_label, short
 from rankscope.tables.table import KINDS, Table
 from rankscope.tables.text import Offending, TextColumn
+
+if TYPE_CHECKING:
+    import pandas as pd
 
 
 def with_kinds(table: Table, overrides: dict[str, str]) -> Table:
@@ -62,6 +66,8 @@ def convert(values, old: str, new: str, *, name: str, where: str, index: pd.Inde
     """values (of kind old) as kind new, plus notes; InputError naming the first misfit cell."""
     if old == new:
         return values, []
+    import pandas as pd
+
     try:
         if old == "categorical":
             return _from_text(TextColumn.from_categorical(pd.Categorical(values)), new)
@@ -119,6 +125,8 @@ def _from_text(tc: TextColumn, new: str):
 
 
 def _to_categories(values, old: str) -> pd.Categorical:
+    import pandas as pd
+
     if old == "numeric":
         arr = np.asarray(values, dtype=np.float64)
         uniq = np.unique(arr[~np.isnan(arr)])
@@ -144,6 +152,8 @@ def _numbers_to_bool(arr: np.ndarray) -> pd.arrays.BooleanArray:
         rows = np.flatnonzero(bad)
         examples = [number_text(v) for v in dict.fromkeys(arr[rows[:1000]].tolist())][:3]
         raise Offending(int(rows[0]), len(rows), examples, "a number other than 0 or 1")
+    import pandas as pd
+
     return pd.arrays.BooleanArray(arr == 1, missing)
 
 

@@ -8,13 +8,12 @@ from __future__ import annotations
 import re
 from pathlib import Path
 
-import pandas as pd
 import pyarrow as pa
 import pyarrow.parquet as pq
 
 from rankscope.tables.errors import InputError
 from rankscope.tables.limits import check_columns, check_rows
-from rankscope.tables.raw import Raw
+from rankscope.tables.raw import Raw, RowNumbers
 
 PANDAS_INDEX = re.compile(r"^__index_level_\d+__$")
 
@@ -54,10 +53,13 @@ def read_parquet(data: bytes | Path, where: str,
         )
     try:
         source = pa.memory_map(str(data)) if isinstance(data, Path) else pa.BufferReader(data)
-        meta = pq.ParquetFile(source).metadata
+        file = pq.ParquetFile(source)
+        meta = file.metadata
         check_columns(meta.num_columns, shape[1], where)
         check_rows(meta.num_rows, shape[0], where)
-        table = pq.read_table(source)
+        # The file's own reader: pq.read_table goes through pyarrow.dataset, which imports
+        # pandas (a quarter of a second of a small `check`) for the same table.
+        table = file.read()
     except (pa.ArrowException, OSError, ValueError) as e:
         raise unreadable(e, where) from None
     notes = []
@@ -67,5 +69,5 @@ def read_parquet(data: bytes | Path, where: str,
         notes.append("A pandas index stored in the file was left out.")
     names = [all_names[i] for i in keep]
     columns = [table.column(i) for i in keep]
-    index = pd.RangeIndex(1, table.num_rows + 1, name="record")
+    index = RowNumbers(range(1, table.num_rows + 1), "record")
     return Raw(names=names, columns=columns, index=index, where=where, typed=True, notes=notes)

@@ -11,9 +11,41 @@ from __future__ import annotations
 
 from collections.abc import Callable
 from dataclasses import dataclass, field
+from typing import TYPE_CHECKING
 
-import pandas as pd
+import numpy as np
 import pyarrow as pa
+
+if TYPE_CHECKING:
+    import pandas as pd
+
+
+@dataclass(eq=False)
+class RowNumbers:
+    """The row number a person sees for each row (a range, or an array where rows skip lines),
+    named "line", "row" or "record": a pandas index without pandas, which loads only when a
+    frame is built (see Table.of_numbers)."""
+
+    numbers: range | np.ndarray
+    name: str
+
+    def __len__(self) -> int:
+        return len(self.numbers)
+
+    def __getitem__(self, pos: int) -> int:
+        return int(self.numbers[pos])
+
+    def to_pandas(self) -> pd.Index:
+        import pandas as pd
+
+        if isinstance(self.numbers, range):
+            return pd.RangeIndex(self.numbers.start, self.numbers.stop, name=self.name)
+        return pd.Index(self.numbers, dtype="int64", name=self.name)
+
+
+def pandas_index(index: pd.Index | RowNumbers) -> pd.Index:
+    """The row numbers as a pandas index."""
+    return index.to_pandas() if isinstance(index, RowNumbers) else index
 
 
 @dataclass
@@ -31,7 +63,7 @@ class Raw:
 
     names: list[str]
     columns: list[pa.ChunkedArray]
-    index: pd.Index
+    index: pd.Index | RowNumbers
     where: str
     typed: bool = False
     decimal: str = "."
@@ -43,14 +75,15 @@ class Raw:
         return len(self.index)
 
 
-def row_label(index: pd.Index, pos: int) -> str:
+def row_label(index: pd.Index | RowNumbers, pos: int) -> str:
     """'line 17' for the row at position pos; 'row N' (header = row 1) when the index is plain."""
     if index.name in ("line", "row", "record"):
         return f"{index.name} {int(index[pos])}"
     return f"row {pos + 2}"
 
 
-def at(where: str, index: pd.Index | None = None, pos: int | None = None, column=None) -> str:
+def at(where: str, index: pd.Index | RowNumbers | None = None, pos: int | None = None,
+       column=None) -> str:
     """The 'where' of an InputError: file, then row, then column, as far as known."""
     parts = [where] if where else []
     if index is not None and pos is not None:

@@ -8,10 +8,14 @@ every test runs once per distinct value, not once per row.
 
 from __future__ import annotations
 
+from typing import TYPE_CHECKING
+
 import numpy as np
-import pandas as pd
 import pyarrow as pa
 import pyarrow.compute as pc
+
+if TYPE_CHECKING:
+    import pandas as pd
 
 # Cells read as missing (after trimming spaces): pandas' defaults plus "-", "." and "?".
 MISSING_MARKERS = (
@@ -32,8 +36,11 @@ ISO_DATE = (
     r"(Z|[+-]\d{2}(:?\d{2})?)?$"
 )
 HAS_ZONE = r"(Z|[+-]\d{2}(:?\d{2})?)$"
-NS_MIN = pd.Timestamp.min
-NS_MAX = pd.Timestamp.max
+#: The years of the first and last instants datetime64[ns] holds (pandas.Timestamp.min and
+#: .max: int64 nanoseconds either side of 1970), found by numpy without loading pandas.
+NS_MIN_YEAR, NS_MAX_YEAR = (
+    int(np.datetime64(t, "ns").astype("datetime64[Y]").astype(np.int64)) + 1970
+    for t in (np.iinfo(np.int64).min + 1, np.iinfo(np.int64).max))
 
 
 class Offending(Exception):
@@ -172,6 +179,8 @@ class TextColumn:
         truth = _np(pc.is_in(self.lower, pa.array(TRUE_LOOSE if loose else TRUE_WORDS)))
         values = self.spread(truth, False)
         mask = self.spread(~ok, True)
+        import pandas as pd
+
         return pd.arrays.BooleanArray(values, mask)
 
     def to_date(self) -> tuple[np.ndarray, list[str]]:
@@ -184,6 +193,8 @@ class TextColumn:
         if early_late.any():
             raise self.offending(early_late, "a date before 1678 or after 2261")
         zoned = ok & _np(pc.match_substring_regex(self.trimmed, HAS_ZONE))
+        import pandas as pd
+
         stamps = pd.to_datetime(
             pd.Series(texts, dtype=object), format="ISO8601", utc=bool(zoned.any()), errors="coerce"
         )
@@ -206,6 +217,8 @@ class TextColumn:
         # pandas neither converts nor checks them again.
         small = (t for t in (np.int8, np.int16, np.int32) if len(keep) < np.iinfo(t).max)
         code_type = next(small, np.int64)
+        import pandas as pd
+
         cats = pd.Index([texts[i] for i in keep], dtype="str")
         if keep == list(range(len(texts))) and len(self.codes) and self.codes.min() >= 0:
             # Distinct values already in order (the plain-CSV reader sorts them), none missing:
@@ -245,4 +258,4 @@ def _out_of_range(text: str | None) -> bool:
         year = int(text[:4])
     except ValueError:
         return False
-    return not (NS_MIN.year < year < NS_MAX.year)
+    return not (NS_MIN_YEAR < year < NS_MAX_YEAR)

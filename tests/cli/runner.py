@@ -49,3 +49,21 @@ def run_process(*args: str) -> Result:
     p = subprocess.run([sys.executable, "-m", "rankscope.cli", *args], cwd=ROOT,
                        capture_output=True, text=True, timeout=120)
     return Result(p.returncode, p.stdout, p.stderr)
+
+
+def loaded_modules(*args: str) -> list[str]:
+    """The names in sys.modules after main(args) in a fresh interpreter (its output thrown
+    away; exit code 0 asserted)."""
+    code = (
+        "import contextlib, io, json, sys\n"
+        "from rankscope.cli import main\n"
+        "with contextlib.redirect_stdout(io.StringIO()):\n"
+        f"    code = main({list(args)!r})\n"
+        "print(json.dumps([code, sorted(sys.modules)]))\n"
+    )
+    done = subprocess.run([sys.executable, "-c", code], cwd=ROOT, capture_output=True,
+                          text=True, timeout=120)
+    assert done.returncode == 0, done.stderr
+    exit_code, modules = json.loads(done.stdout)
+    assert exit_code == 0
+    return modules

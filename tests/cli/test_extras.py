@@ -8,8 +8,6 @@ jsonschema); Python's sys.modules in a fresh interpreter for what was imported.
 from __future__ import annotations
 
 import json
-import subprocess
-import sys
 
 import numpy as np
 import pandas as pd
@@ -17,7 +15,7 @@ import pytest
 from jsonschema import Draft202012Validator
 from scipy import stats
 
-from tests.cli.runner import ROOT, SCHEMA, run
+from tests.cli.runner import SCHEMA, loaded_modules, run
 
 #: Modules a plain check must not load (extras and the web stack).
 HEAVY = ("scipy.stats", "scipy.cluster", "plotly", "jinja2", "fastapi", "openpyxl")
@@ -105,18 +103,7 @@ def test_unknown_extra_and_spearman_while_streaming_are_refused(table: str) -> N
 
 @pytest.mark.parametrize("asked", [(), ("--with", "spearman,order")])
 def test_modules_a_check_loads(table: str, asked: tuple[str, ...]) -> None:
-    code = (
-        "import contextlib, io, json, sys\n"
-        "from rankscope.cli import main\n"
-        "with contextlib.redirect_stdout(io.StringIO()):\n"
-        f"    code = main(['check', {table!r}, '--response', 'y', '--json', *{list(asked)!r}])\n"
-        "print(json.dumps([code, sorted(sys.modules)]))\n"
-    )
-    done = subprocess.run([sys.executable, "-c", code], cwd=ROOT, capture_output=True,
-                          text=True, timeout=120)
-    assert done.returncode == 0, done.stderr
-    code, modules = json.loads(done.stdout)
-    assert code == 0
+    modules = loaded_modules("check", table, "--response", "y", "--json", *asked)
     loaded = {h for h in HEAVY if h in modules}
     if asked:
         assert {"scipy.stats", "scipy.cluster"} <= loaded
