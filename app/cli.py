@@ -39,7 +39,7 @@ otherwise):
   proportions  on a design of 200 columns or more: the proportions of every dimension
                (by default those of condition index 10 or more only; null for the others)
   spectra      on a design of 200 columns or more: the raw and centred singular values
-               (by default only where a finite condition number needs them)
+               (by default their condition numbers come from the extreme values alone)
 exit codes: 0 every rule holds, 1 a rule is crossed, 2 bad input (one line on stderr).
 """
 

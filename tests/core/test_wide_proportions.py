@@ -5,6 +5,7 @@ Welsch 1980, eqs. 3.10-3.12), in any column order and under column scaling."""
 from __future__ import annotations
 
 import numpy as np
+import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
@@ -110,3 +111,36 @@ def test_a_deferred_hint_changes_nothing_but_the_time() -> None:
     right, wrong = right.to_dict(), wrong.to_dict()
     assert right == plain
     assert wrong == plain
+
+
+@settings(max_examples=4, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@given(seed=st.integers(0, 10_000))
+def test_condition_numbers_of_a_wide_design_without_its_spectra(seed: int) -> None:
+    """A wide design of full rank gets its raw and centred condition numbers from the
+    extreme singular values alone (Lanczos); reference: numpy.linalg.svd of the raw columns
+    and of the centred unit-length non-constant ones (BKW 1980 §3.3 for the scalings).
+    The near pair is a difference of two columns, a direction a start of ones would miss."""
+    rng = np.random.default_rng(seed)
+    n = 3 * P
+    X = rng.normal(size=(n, P)) * 10.0 ** rng.uniform(-3, 3, P) + rng.uniform(-50, 50, P)
+    X[:, 0] = 1.0
+    X[:, 9] = X[:, 8] + 1e-4 * rng.normal(size=n) * np.std(X[:, 8])
+    names = [f"c{j:03d}" for j in range(P)]
+    lean = diagnose(X, names)
+    full = diagnose(X, names, spectra=True)
+    assert lean.rank == P
+    assert lean.singular_values["raw"] is None and lean.singular_values["centered"] is None
+    assert full.singular_values["raw"] is not None
+    s = np.linalg.svd(X, compute_uv=False)
+    C = X[:, 1:] - X[:, 1:].mean(axis=0)
+    C /= np.linalg.norm(C, axis=0)
+    c = np.linalg.svd(C, compute_uv=False)
+    # Weyl's inequality: rounding of size p·eps·σ_max moves σ_min by as much, so two
+    # backward-stable routes agree on κ to about p·eps·κ (Golub & Van Loan §8.6.1).
+    for got, spectrum, other in ((lean.condition_number["raw"], s, full.condition_number["raw"]),
+                                 (lean.condition_number["centered"], c,
+                                  full.condition_number["centered"])):
+        kappa = spectrum[0] / spectrum[-1]
+        rel = max(1e-10, 4 * P * np.finfo(float).eps * kappa)
+        assert got == pytest.approx(kappa, rel=rel)
+        assert got == pytest.approx(other, rel=rel)
