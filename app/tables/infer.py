@@ -95,10 +95,12 @@ def _numbers(raw: Raw, j: int, name: str, arr: pa.ChunkedArray) -> np.ndarray:
 
 
 def float_values(arr: pa.ChunkedArray) -> np.ndarray:
-    """A float64 Arrow column as a new float64 array, NaN where a value is missing: what its
+    """A float64 Arrow column as a float64 array, NaN where a value is missing: what its
     to_numpy() gives, read from the column's buffers (values, then the validity bitmap, least
     significant bit first: the Arrow columnar format), because pyarrow's own conversions
-    import pandas (a quarter of a second of a small `check`)."""
+    import pandas (a quarter of a second of a small `check`). One chunk without missing
+    values is handed over as a read-only view of Arrow's buffer, as to_numpy() does (a copy
+    of every column cost 0.15 s of `check` at 20,000 × 1,000); otherwise a new array."""
     parts, missing = [], []
     for chunk in arr.chunks:
         n, off = len(chunk), chunk.offset
@@ -114,7 +116,11 @@ def float_values(arr: pa.ChunkedArray) -> np.ndarray:
             missing.append(np.zeros(n, dtype=bool))
     if not parts:
         return np.zeros(0)
-    values = np.concatenate(parts)  # a copy: the caller may write to it
+    if len(parts) == 1 and not arr.null_count:
+        view = parts[0]
+        view.flags.writeable = False
+        return view
+    values = np.concatenate(parts)  # a copy: NaN is written into it
     if arr.null_count:
         values[np.concatenate(missing)] = np.nan
     return values
