@@ -180,7 +180,9 @@ def _pandas(path: Path, delimiter: str, declared: list[str]) -> pd.DataFrame | N
             return pd.read_csv(
                 path,
                 sep=delimiter,
-                dtype=dict.fromkeys(declared, "str"),
+                # None, not an empty dict, when no column is declared: pandas takes any dict
+                # as a reason to build the frame column by column (a tenth of the parse).
+                dtype=dict.fromkeys(declared, "str") or None,
                 na_values=list(MISSING_MARKERS),
                 keep_default_na=False,
                 skip_blank_lines=False,
