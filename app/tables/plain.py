@@ -232,13 +232,17 @@ def _threads() -> ThreadPoolExecutor:
 
 def _known(column: pa.ChunkedArray) -> pa.DictionaryArray | None:
     """The column encoded by the distinct values of its first chunk, or None when a later
-    chunk holds another."""
+    chunk holds another. The values are sorted before the lookup, so its positions are the
+    codes themselves (no translation per cell); a missing cell points past them."""
     known = pc.unique(column.chunk(0)).drop_null()
+    known = known.take(pc.array_sort_indices(known))
     indices = pc.index_in(column, value_set=known)
     if indices.null_count != column.null_count:
         return None
-    codes = pc.fill_null(indices, -1) if indices.null_count else indices
-    return _merge([(known, codes.to_numpy(), indices.null_count > 0)])
+    if indices.null_count:
+        indices = pc.fill_null(indices, len(known))
+        known = pa.concat_arrays([known, pa.nulls(1, known.type)])
+    return pa.DictionaryArray.from_arrays(indices.combine_chunks(), known, safe=False)
 
 
 def _encode_chunks(columns: list[pa.ChunkedArray]) -> list[pa.DictionaryArray]:
