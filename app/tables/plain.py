@@ -180,7 +180,9 @@ def _pandas(path: Path, delimiter: str, declared: list[str]) -> pd.DataFrame | N
             return pd.read_csv(
                 path,
                 sep=delimiter,
-                dtype=dict.fromkeys(declared, "str"),
+                # None, not an empty dict, when no column is declared: pandas takes any dict
+                # as a reason to build the frame column by column (a tenth of the parse).
+                dtype=dict.fromkeys(declared, "str") or None,
                 na_values=list(MISSING_MARKERS),
                 keep_default_na=False,
                 skip_blank_lines=False,
@@ -208,15 +210,49 @@ def _arrow(column: pd.Series) -> pa.Array | pa.ChunkedArray | None:
 
 def _encode(columns: list[pa.ChunkedArray]) -> list[pa.DictionaryArray]:
     """Each text column as one dictionary array (a missing cell: a null entry of the
-    dictionary). A column's first chunk is hashed; its other chunks are looked up in those
-    values (a quarter cheaper than hashing; a chunk with a new value is hashed itself), a chunk
-    per task on all cores (pyarrow lets go of the GIL). The chunks' values are then merged and
-    their codes translated, without copying the chunks together."""
+    dictionary), its values sorted, a column per task on all cores (pyarrow lets go of the
+    GIL). Every cell is looked up in the values of the column's first chunk, in one call for
+    the whole column (a lookup per chunk cost a quarter more on the read benchmark, loaded);
+    a column with a value its first chunk lacks is encoded chunk by chunk instead."""
+    pool = _threads()
+    whole = [pool.submit(_known, col) for col in columns]
+    encoded = [task.result() for task in whole]
+    rest = [j for j, enc in enumerate(encoded) if enc is None]
+    for j, enc in zip(rest, _encode_chunks([columns[j] for j in rest]), strict=True):
+        encoded[j] = enc
+    return encoded
+
+
+def _threads() -> ThreadPoolExecutor:
     global _pool
     if _pool is None:
         _pool = ThreadPoolExecutor(max(1, min(os.cpu_count() or 1, 4)))
-    firsts = [_pool.submit(_codes, col.chunk(0)) for col in columns]
-    tasks = [[first] + [_pool.submit(_codes, c, first.result()[0]) for c in col.chunks[1:]]
+    return _pool
+
+
+def _known(column: pa.ChunkedArray) -> pa.DictionaryArray | None:
+    """The column encoded by the distinct values of its first chunk, or None when a later
+    chunk holds another. The values are sorted before the lookup, so its positions are the
+    codes themselves (no translation per cell); a missing cell points past them."""
+    known = pc.unique(column.chunk(0)).drop_null()
+    known = known.take(pc.array_sort_indices(known))
+    indices = pc.index_in(column, value_set=known)
+    if indices.null_count != column.null_count:
+        return None
+    if indices.null_count:
+        indices = pc.fill_null(indices, len(known))
+        known = pa.concat_arrays([known, pa.nulls(1, known.type)])
+    return pa.DictionaryArray.from_arrays(indices.combine_chunks(), known, safe=False)
+
+
+def _encode_chunks(columns: list[pa.ChunkedArray]) -> list[pa.DictionaryArray]:
+    """Each text column as one dictionary array, as _encode gives it. A column's first chunk
+    is hashed; its other chunks are looked up in those values (a chunk with a new value is
+    hashed itself), a chunk per task on all cores. The chunks' values are then merged and
+    their codes translated, without copying the chunks together."""
+    pool = _threads()
+    firsts = [pool.submit(_codes, col.chunk(0)) for col in columns]
+    tasks = [[first] + [pool.submit(_codes, c, first.result()[0]) for c in col.chunks[1:]]
              for col, first in zip(columns, firsts, strict=True)]
     return [_merge([t.result() for t in col]) for col in tasks]
 
