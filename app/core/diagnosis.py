@@ -232,22 +232,17 @@ VALUES_FIRST_COLUMNS = 200
 Svd = tuple[np.ndarray | None, np.ndarray, np.ndarray | None]
 
 
-def _tolerance_bounds(F: Factorization, tol: float | None) -> tuple[float, float]:
-    """(upper, lower) bounds of the rank tolerance before any SVD: ‖R‖_F/√p ≤ σ_max ≤
-    ‖R‖_F bound the default one; a caller's tolerance is both."""
-    if tol is not None:
-        return float(tol), float(tol)
-    size = float(np.linalg.norm(F.R_x_triangular)) * max(F.n, F.p) * EPS
-    return size, size / np.sqrt(F.p)
-
-
 def maybe_full_rank(F: Factorization, tol: float | None) -> bool:
     """False when a pivot of the triangular factor is at or below the lowest tolerance the
     SVD could set: σ_min ≤ min |r_jj| (the eigenvalues of a triangular matrix are its
     diagonal), so X is then certainly rank deficient. True says only "perhaps"."""
     if F.p == 0:
         return True
-    return float(np.min(np.abs(np.diagonal(F.R_x_triangular)))) > _tolerance_bounds(F, tol)[1]
+    R = F.R_x_triangular
+    # ‖R‖_F/√p ≤ σ_max: the default tolerance is at least this; a caller's is itself.
+    lowest = (float(tol) if tol is not None
+              else float(np.linalg.norm(R)) * max(F.n, F.p) * EPS / np.sqrt(F.p))
+    return float(np.min(np.abs(np.diagonal(R)))) > lowest
 
 
 def rank_spectrum(F: Factorization, tol: float | None

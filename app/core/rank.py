@@ -46,24 +46,6 @@ def default_tolerance(sigma_max: float, n: int, p: int) -> float:
     return float(sigma_max) * max(n, p) * EPS
 
 
-#: How far the computed inverse's norm may be off before the full-rank test below could be
-#: wrong: the computed inverse of a triangular R has a normwise relative error of about
-#: p·κ(R)·eps (Higham, Accuracy and Stability of Numerical Algorithms, 2nd ed., §8.2, §14.2),
-#: at most a quarter when κ(R) < 1/(4·max(n, p)·eps) as the test asks. The test only chooses
-#: which SVD is computed, never the rank: a wrong answer costs time, not a result.
-FULL_RANK_MARGIN = 4.0
-
-
-def certainly_full_rank(R_inv: np.ndarray, bound: float) -> bool:
-    """True when every singular value of R exceeds `bound`, read off R⁻¹ (triangular_inverse):
-    σ_min(R) = 1/‖R⁻¹‖₂ ≥ 1/‖R⁻¹‖_F. bound: the largest rank tolerance the SVD could set
-    (‖R‖_F·max(n, p)·eps, as σ_max ≤ ‖R‖_F, or the caller's tolerance)."""
-    if R_inv.size == 0:
-        return True
-    size = float(np.linalg.norm(R_inv))
-    return bool(np.isfinite(size) and size > 0 and 1.0 / size > FULL_RANK_MARGIN * bound)
-
-
 #: Largest ratio σ_{r+1}/σ_r (the largest singular value cut over the smallest kept) for
 #: which the null space is found by inverse iteration; each sweep shrinks what the start
 #: keeps of the kept directions by (σ_{r+1}/σ_r)² at least (subspace iteration with R⁻¹R⁻ᵀ,

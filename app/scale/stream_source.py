@@ -22,6 +22,7 @@ import pyarrow.types as pat
 
 from rankscope.tables import sniff
 from rankscope.tables.build import build
+from rankscope.tables.delimited import convert_options
 from rankscope.tables.errors import InputError
 from rankscope.tables.parquet import unreadable
 from rankscope.tables.raw import Raw
@@ -171,15 +172,9 @@ class Source:
             else:
                 t = pa.string()
             types[self.raw_names.get(name, name)] = t
-        return pacsv.ConvertOptions(
-            null_values=list(MISSING_MARKERS),
-            true_values=["true", "True", "TRUE"],
-            false_values=["false", "False", "FALSE"],
-            strings_can_be_null=True,
-            quoted_strings_can_be_null=True,
-            decimal_point=self.decimal,
-            column_types=types,
-        )
+        # The whole-file reader's options, without its dictionaries: the stream's blocks are
+        # built one at a time and would each get dictionaries of their own.
+        return convert_options(self.decimal, types, dictionaries=False)
 
     def _csv_table(self, part: pa.Table, start: int) -> Table:
         index = pd.RangeIndex(start + 2, start + 2 + part.num_rows, name="row")

@@ -217,22 +217,6 @@ def test_inverse_iteration_declines_a_narrow_gap() -> None:
     assert null_by_inverse_iteration(np.diag(d), d, 3, 2e-10) is None
 
 
-def test_full_rank_certificate_agrees_with_the_svd() -> None:
-    from rankscope.core.inflation import triangular_inverse
-    from rankscope.core.rank import FULL_RANK_MARGIN, certainly_full_rank
-
-    rng = np.random.default_rng(3)
-    R = np.linalg.qr(rng.normal(size=(90, 30)), mode="r")
-    # reference: numpy.linalg.svd's smallest singular value; ‖R⁻¹‖_F ≤ √p·‖R⁻¹‖₂ is the
-    # slack the certificate allows itself
-    smallest = np.linalg.svd(R, compute_uv=False)[-1]
-    assert certainly_full_rank(triangular_inverse(R),
-                               0.99 * smallest / (FULL_RANK_MARGIN * np.sqrt(30)))
-    assert not certainly_full_rank(triangular_inverse(R), smallest)
-    R[5, 5] = 1e-14  # a pivot near zero: nearly singular
-    assert not certainly_full_rank(triangular_inverse(R), 1e-12)
-
-
 def test_wide_rank_path_matches_the_full_svds() -> None:
     """A design past VALUES_FIRST_COLUMNS (values first, null space by inverse iteration,
     index table from the basis factor) against the same design forced onto the full SVD
