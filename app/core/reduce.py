@@ -51,9 +51,20 @@ def merge(R: np.ndarray | None, block: np.ndarray) -> np.ndarray:
     return square_factor(np.linalg.qr(stacked, mode="r"), k)
 
 
-#: Panel width of the triangular-pentagonal QR (LAPACK dtpqrt's NB): 16 measured best for
-#: 50 to 100 columns on 2 MiB blocks, one BLAS thread (32 and 64 were 15-40% slower).
-PANEL = 16
+#: Panel widths of the triangular-pentagonal QR (LAPACK dtpqrt's NB) by the number of
+#: columns k: (below this k, this width). Measured on 2 MiB blocks with one BLAS thread on the
+#: 2-core machine: 16 best for 50 to 100 columns (32 and 64 15-40% slower there); from a few
+#: hundred columns on, wider panels put more of the work in matrix-matrix products: at
+#: 1,000 columns 32 took 1.32 s against 1.51 s for 16, at 2,000 columns 64 took 5.3 s
+#: against 5.8 s for 32 and 6.4 s for 16.
+PANELS = ((250, 16), (1500, 32))
+WIDE_PANEL = 64
+
+
+def panel_width(k: int) -> int:
+    """dtpqrt's panel width for a factor of k columns (see PANELS), at most k."""
+    width = next((w for below, w in PANELS if k < below), WIDE_PANEL)
+    return max(1, min(width, k))
 
 
 def _absorb(R: np.ndarray, block: np.ndarray) -> np.ndarray:
@@ -65,7 +76,7 @@ def _absorb(R: np.ndarray, block: np.ndarray) -> np.ndarray:
     """
     k = R.shape[1]
     b = np.asfortranarray(block, dtype=np.float64)
-    a, _, _, info = lapack.dtpqrt(0, min(PANEL, k), R, b, overwrite_a=1, overwrite_b=1)
+    a, _, _, info = lapack.dtpqrt(0, panel_width(k), R, b, overwrite_a=1, overwrite_b=1)
     if info != 0:
         raise np.linalg.LinAlgError(f"dtpqrt failed (info {info})")
     return a

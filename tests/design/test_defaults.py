@@ -52,7 +52,8 @@ def test_defaults() -> None:
         ]
     )
     np.testing.assert_array_equal(design.X, expected)
-    assert design.X.dtype == np.float64 and design.X.flags["C_CONTIGUOUS"]
+    # the layout the factorization reads fastest (row blocks copied out column by column)
+    assert design.X.dtype == np.float64 and design.X.flags["F_CONTIGUOUS"]
     assert design.groups == {
         "shade": ["shade[green]", "shade[red]"],
         "code": ["code[9]", "code[10]"],
