@@ -270,11 +270,10 @@ def _factor(design: Any, factorize: Any) -> Any:
     """factorize(design) on one BLAS thread.
 
     The blocked reduction makes many small BLAS calls (2 MiB blocks, panels of 16 to 64
-    columns): a
-    second thread gains little there, and on a busy 2-core machine its start and waits cost
-    10-30× (measured in one process, threadpoolctl: 200,000 × 100 in 0.48 s on one thread
-    against 5-16 s on two; 20,000 × 1,000 in 1.7-2.7 s against 32-35 s; 10,000 × 20 in
-    6 ms against up to 150 ms).
+    columns): a second thread gains little there, and on a busy 2-core machine its start and
+    waits cost 10-30× (measured in one process, threadpoolctl: 200,000 × 100 in 0.48 s on
+    one thread against 5-16 s on two; 20,000 × 1,000 in 1.7-2.7 s against 32-35 s; 10,000 ×
+    20 in 6 ms against up to 150 ms).
     """
     from threadpoolctl import threadpool_limits
 
