@@ -255,13 +255,21 @@ def maybe_full_rank(F: Factorization, tol: float | None) -> bool:
     """False when a pivot of the triangular factor is at or below the lowest tolerance the
     SVD could set: σ_min ≤ min |r_jj| (the eigenvalues of a triangular matrix are its
     diagonal), so X is then certainly rank deficient. True says only "perhaps"."""
+    return F.p == 0 or not _small_pivots(F, tol)
+
+
+def _small_pivots(F: Factorization, tol: float | None) -> list[int]:
+    """The columns (of X) whose pivot in the triangular factor is at or below the lowest
+    tolerance the SVD could set (see maybe_full_rank): each is, to that tolerance, a
+    combination of the columns reduced before it."""
     if F.p == 0:
-        return True
+        return []
     R = F.R_x_triangular
     # ‖R‖_F/√p ≤ σ_max: the default tolerance is at least this; a caller's is itself.
     lowest = (float(tol) if tol is not None
               else float(np.linalg.norm(R)) * max(F.n, F.p) * EPS / np.sqrt(F.p))
-    return float(np.min(np.abs(np.diagonal(R)))) > lowest
+    small = np.flatnonzero(np.abs(np.diagonal(R)) <= lowest)
+    return [F.x_order[int(i)] for i in small]
 
 
 def rank_spectrum(F: Factorization, tol: float | None
@@ -381,7 +389,8 @@ def diagnose_factor(
     cnd.PROPORTION_INDEX or more only (the other rows None) and the raw and centred
     singular values only where a condition number needs them (else None). Narrower
     designs always get both in full. deferred_hint: the dependent columns (those on the
-    left of an equation) of a previous diagnosis of a nearly equal design; a wide
+    left of an equation) of a previous diagnosis of a nearly equal design (without one,
+    the columns whose pivots in the triangular factor are below any tolerance); a wide
     deficient design then computes its basis' singular values beside its own SVD (the
     results are the same with or without it, right or wrong).
 
@@ -405,10 +414,14 @@ def diagnose_factor(
     lists = spectra or p < cnd.WIDE_DIMENSIONS
     side = _side_spectra(F, Zc) if lists and p >= SIDE_SPECTRA_COLUMNS else None
     order_of_basis = priority_order(names, keep)
-    perhaps_full = (not lists and p >= VALUES_FIRST_COLUMNS) and maybe_full_rank(F, tol)
-    guess = (_guessed_basis(F, deferred_hint, order_of_basis)
-             if deferred_hint and not lists and not all_proportions
-             and p >= VALUES_FIRST_COLUMNS and not perhaps_full else None)
+    wide = not lists and p >= VALUES_FIRST_COLUMNS
+    small = _small_pivots(F, tol) if wide else []
+    perhaps_full = wide and not small
+    # Without a caller's hint, the columns with the small pivots: in the usual column
+    # order they are the ones the rank decision writes through the others.
+    hint = deferred_hint or [names[j] for j in small]
+    guess = (_guessed_basis(F, hint, order_of_basis)
+             if hint and wide and not all_proportions and not perhaps_full else None)
     ends = _side_ends(F, Zc, bool(nonconst)) if perhaps_full else None
     svd, null, tol_used = rank_spectrum(F, tol)
     sv_eq = svd[1]

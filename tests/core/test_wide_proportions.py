@@ -96,21 +96,28 @@ def test_the_subset_iteration_refuses_a_spectrum_without_a_gap() -> None:
     assert np.allclose(np.abs(V), np.eye(P)[:, P - 2:], atol=1e-12)
 
 
-def test_a_deferred_hint_changes_nothing_but_the_time() -> None:
+def test_a_deferred_hint_changes_nothing_but_the_time(monkeypatch) -> None:
     """The hinted basis. SVD runs beside the rank decision's; right, wrong or absent, the
     diagnosis is the same to the last bit (the same LAPACK calls on the same arrays)."""
     from rankscope.core.diagnosis import diagnose_factor
     from rankscope.core.factor import factorize
 
+    from rankscope.core import diagnosis
+
     X, names = planted(7)
     F = factorize(X, names)
     plain = diagnose_factor(F).to_dict()
-    right = diagnose_factor(F, deferred_hint=[r["column"] for r in plain["dependencies"]])
+    dependent = [r["column"] for r in plain["dependencies"]]
+    right = diagnose_factor(F, deferred_hint=dependent)
     wrong = diagnose_factor(F, deferred_hint=["c031"])
     assert plain["rank"] == P - 1 and "c031" in plain["basis"]
+    # Without a hint, the columns of the small pivots serve as one (here the right one).
+    assert [names[j] for j in diagnosis._small_pivots(F, None)] == dependent
     right, wrong = right.to_dict(), wrong.to_dict()
     assert right == plain
     assert wrong == plain
+    monkeypatch.setattr(diagnosis, "_guessed_basis", lambda *a: None)
+    assert diagnose_factor(factorize(X, names)).to_dict() == plain  # no side SVD at all
 
 
 def test_extreme_values_started_before_the_rank_change_nothing_but_the_time(monkeypatch
