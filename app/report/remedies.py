@@ -14,7 +14,7 @@ import numpy as np
 
 from rankscope.core.diagnosis import Diagnosis
 from rankscope.core.factor import Factorization
-from rankscope.core.preview import Change, preview, summarize
+from rankscope.core.preview import Change, previews, summarize
 from rankscope.core.workspace import CONSTANT
 
 #: At most this many candidates are offered (equations first, then flagged dimensions,
@@ -203,8 +203,8 @@ def previewed(d: Diagnosis, F: Factorization, cands: list[Candidate], *,
     unit-length columns (the JSON contract's `remedies`)."""
     now = summarize(d, None)
     rows = []
-    for c in cands:
-        p = preview(F, c.change, d, keep=keep, tol=tol)
+    for c, p in zip(cands, previews(F, [c.change for c in cands], d, keep=keep, tol=tol),
+                    strict=True):
         row = {**listed(c), **p.to_dict()}
         if c.kind == "center":
             row["centering"] = _centering_verdict(now.condition_number, p.condition_number,

@@ -99,10 +99,9 @@ def test_the_subset_iteration_refuses_a_spectrum_without_a_gap() -> None:
 def test_a_deferred_hint_changes_nothing_but_the_time(monkeypatch) -> None:
     """The hinted basis. SVD runs beside the rank decision's; right, wrong or absent, the
     diagnosis is the same to the last bit (the same LAPACK calls on the same arrays)."""
+    from rankscope.core import diagnosis
     from rankscope.core.diagnosis import diagnose_factor
     from rankscope.core.factor import factorize
-
-    from rankscope.core import diagnosis
 
     X, names = planted(7)
     F = factorize(X, names)

@@ -83,6 +83,30 @@ def test_every_remedy_preview_equals_the_applied_analysis(tmp_path: Path) -> Non
     assert _check_all(_table(tmp_path, 1, 1000.0)) >= 6
 
 
+def test_previews_side_by_side_are_the_previews_in_turn(tmp_path: Path, monkeypatch) -> None:
+    """A wide design previews its remedies on all cores: forced here onto a narrow one, the
+    rows are those of the previews run one after the other, to the last bit, and still
+    equal the applied analysis."""
+    from rankscope.core import preview
+
+    steps = BASE
+    design, F, d = _analyse(_table(tmp_path, 3, 50.0), steps)
+    in_turn = remedies_of(d, F, design, steps, None, None).shown
+    monkeypatch.setattr(preview, "SIDE_BY_SIDE_COLUMNS", 0)
+    started = []
+    real = preview._pool
+
+    def spy():
+        started.append(True)
+        return real()
+
+    monkeypatch.setattr(preview, "_pool", spy)
+    side_by_side = remedies_of(d, F, design, steps, None, None).shown
+    assert started and len(in_turn) >= 6
+    assert side_by_side == in_turn
+    assert _check_all(_table(tmp_path, 3, 50.0)) == len(in_turn)
+
+
 @settings(max_examples=8, deadline=None,
           suppress_health_check=[HealthCheck.function_scoped_fixture])
 @given(st.integers(0, 2**31 - 1), st.sampled_from([0.0, 50.0, 1e4]))
