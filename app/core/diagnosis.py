@@ -251,17 +251,12 @@ VALUES_FIRST_COLUMNS = 200
 Svd = tuple[np.ndarray | None, np.ndarray, np.ndarray | None]
 
 
-def maybe_full_rank(F: Factorization, tol: float | None) -> bool:
-    """False when a pivot of the triangular factor is at or below the lowest tolerance the
-    SVD could set: σ_min ≤ min |r_jj| (the eigenvalues of a triangular matrix are its
-    diagonal), so X is then certainly rank deficient. True says only "perhaps"."""
-    return F.p == 0 or not _small_pivots(F, tol)
-
-
 def _small_pivots(F: Factorization, tol: float | None) -> list[int]:
     """The columns (of X) whose pivot in the triangular factor is at or below the lowest
-    tolerance the SVD could set (see maybe_full_rank): each is, to that tolerance, a
-    combination of the columns reduced before it."""
+    tolerance the SVD could set: each is, to that tolerance, a combination of the columns
+    reduced before it. Any such pivot makes X certainly rank deficient (σ_min ≤ min |r_jj|:
+    the eigenvalues of a triangular matrix are its diagonal); none says only "perhaps of
+    full rank"."""
     if F.p == 0:
         return []
     R = F.R_x_triangular

@@ -133,10 +133,18 @@ def test_extreme_values_started_before_the_rank_change_nothing_but_the_time(monk
     X[:, 9] = X[:, 8] + 1e-6 * rng.normal(size=3 * P)
     names = [f"c{j:03d}" for j in range(P)]
     deficient, _ = planted(11)
-    assert diagnosis.maybe_full_rank(factorize(X, names), None)
+    assert not diagnosis._small_pivots(factorize(X, names), None)
     # An exact dependency leaves a zero pivot, which rules the side threads out: taken
     # anyway here, as a dependency the pivots do not show would take them.
-    monkeypatch.setattr(diagnosis, "maybe_full_rank", lambda F, tol: True)
+    monkeypatch.setattr(diagnosis, "_small_pivots", lambda F, tol: [])
+    started_ends = []
+    real_ends = diagnosis._side_ends
+
+    def spy(*a):
+        started_ends.append(True)
+        return real_ends(*a)
+
+    monkeypatch.setattr(diagnosis, "_side_ends", spy)
     for M in (X, deficient):
         started = diagnosis.diagnose_factor(factorize(M, names)).to_dict()
         with monkeypatch.context() as m:
@@ -144,6 +152,7 @@ def test_extreme_values_started_before_the_rank_change_nothing_but_the_time(monk
             inline = diagnosis.diagnose_factor(factorize(M, names)).to_dict()
         assert started == inline
         assert started["rank"] == (P if M is X else P - 1)
+    assert len(started_ends) == 2  # both designs took the side threads
 
 
 @settings(max_examples=4, deadline=None, suppress_health_check=[HealthCheck.too_slow])
